@@ -1,0 +1,38 @@
+// SPDX-License-Identifier: MIT
+// The whole pipeline for one run: the one entry point every front end calls.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "veq/core/run.hpp"
+#include "veq/signal/endpoints.hpp"
+#include "veq/signal/prepare.hpp"
+
+namespace veq {
+
+struct AnalyzeOptions {
+  signal::PrepareOptions prepare;
+  signal::EndpointOptions endpoints;
+
+  // Problems of all the stage options, one line each; empty when valid.
+  [[nodiscard]] std::vector<std::string> validate() const;
+};
+
+// Everything known about one run after analysis; reports are rendered from this.
+struct Analysis {
+  Run run;
+  Curve curve;
+  signal::EndpointResult endpoints;
+  std::vector<Diagnostic> warnings;  // run, curve and endpoint warnings, in that order
+};
+
+// Runs prepare and endpoint detection on a run read by ingest. Never throws
+// for curve content (no endpoint is a warning); throws InputError only for
+// invalid options.
+[[nodiscard]] Analysis analyze(Run run, const AnalyzeOptions& options = {});
+
+// The veq version that produced a result ("0.1.0").
+[[nodiscard]] std::string version();
+
+}  // namespace veq

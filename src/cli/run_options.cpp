@@ -1,0 +1,97 @@
+// SPDX-License-Identifier: MIT
+// Shared run options: parsing and application.
+#include "cli/run_options.hpp"
+
+#include <cmath>
+
+#include "veq/core/constants.hpp"
+#include "veq/core/error.hpp"
+#include "veq/signal/prepare.hpp"
+
+namespace veq::cli {
+
+void add_run_options(CLI::App* cmd, RunOptions& o) {
+  const char* facts = "Run facts (win over the file's metadata)";
+  cmd->add_option("--sample-volume", o.sample_volume_mL, "Sample volume V0 [mL]")->group(facts)->check(CLI::PositiveNumber);
+  cmd->add_option("--titrant-conc", o.titrant_conc_mol_L, "Titrant concentration Ct [mol/L]")
+      ->group(facts)
+      ->check(CLI::PositiveNumber);
+  cmd->add_option("--titrant", o.titrant, "Titrant kind: base (pH rises) or acid (pH falls)")
+      ->group(facts)
+      ->check(CLI::IsMember({"acid", "base"}));
+  cmd->add_option("--temperature", o.temperature_C, "Temperature of the run [°C]")->group(facts)->check(CLI::Range(-5.0, 100.0));
+  const char* reading = "Reading the file";
+  cmd->add_option("--columns", o.columns, "Column positions, 1-based: volume=N,signal=M[,temperature=K][,time=J]")
+      ->group(reading);
+  cmd->add_option("--volume-unit", o.volume_unit, "Unit of the volume column: mL, uL or L")->group(reading);
+  cmd->add_option("--signal", o.signal, "What the signal column holds when the header does not say: pH or mV")
+      ->group(reading)
+      ->check(CLI::IsMember({"pH", "mV", "ph", "mv"}));
+  cmd->add_flag("--sort", o.sort, "Accept rows out of volume order and sort them")->group(reading);
+  cmd->add_option("--max-size", o.max_size_MiB, "Refuse files larger than this [MiB] (default 64)")
+      ->group(reading)
+      ->check(CLI::PositiveNumber);
+  const char* electrode = "Electrode (mV runs)";
+  cmd->add_option("--e0", o.e0_mV, "Electrode potential at pH 0 [mV]; converts mV to pH")->group(electrode);
+  cmd->add_option("--slope", o.slope_mV, "Electrode slope [mV/pH] (default: Nernst slope at the run temperature)")
+      ->group(electrode);
+  cmd->add_option("--buffers", o.buffers, "Two buffer readings 'pH1:E1,pH2:E2' [pH:mV]; converts mV to pH")
+      ->group(electrode);
+  const char* endpoints = "Endpoint detection";
+  cmd->add_option("--window", o.window, "Readings per derivative window, even (default 0: chosen from the data)")
+      ->group(endpoints);
+  cmd->add_option("--min-height", o.min_height, "Smallest endpoint peak as a fraction of the highest (default 0.05)")
+      ->group(endpoints);
+  cmd->add_option("--min-separation", o.min_separation_mL, "Smallest distance between endpoints [mL] (default: 3 dosing steps)")
+      ->group(endpoints);
+}
+
+ingest::IngestOptions ingest_options(const RunOptions& o) {
+  ingest::IngestOptions io;
+  if (!o.columns.empty()) io.columns = ingest::parse_column_overrides(o.columns);
+  if (!o.volume_unit.empty()) io.volume_unit = o.volume_unit;
+  if (!o.signal.empty()) io.signal = (o.signal == "mV" || o.signal == "mv") ? SignalKind::mv : SignalKind::ph;
+  io.sort_by_volume = o.sort;
+  io.max_file_bytes = static_cast<std::uint64_t>(o.max_size_MiB * 1048576.0);
+  if (const auto p = io.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
+  return io;
+}
+
+AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
+  AnalyzeOptions ao;
+  if (!o.buffers.empty()) {
+    double p1 = 0, e1 = 0, p2 = 0, e2 = 0;
+    char c1 = 0, c2 = 0, c3 = 0;
+    std::string rest;
+    if (std::sscanf(o.buffers.c_str(), "%lf%c%lf%c%lf%c%lf", &p1, &c1, &e1, &c2, &p2, &c3, &e2) != 7 || c1 != ':' ||
+        c2 != ',' || c3 != ':') {
+      throw InputError({"--buffers", 0, 0}, "'" + o.buffers + "' is not of the form pH1:E1,pH2:E2",
+                       "e.g. --buffers 4.01:171.5,7.00:-2.3");
+    }
+    ao.prepare.electrode = signal::calibration_from_buffers(p1, e1, p2, e2, temperature_C);
+  } else if (o.e0_mV) {
+    ElectrodeCalibration cal;
+    cal.e0_mV = *o.e0_mV;
+    cal.temperature_C = temperature_C;
+    cal.slope_mV_per_pH = o.slope_mV.value_or(nernst_slope_mV(temperature_C));
+    cal.source = "options";
+    ao.prepare.electrode = cal;
+  } else if (o.slope_mV) {
+    throw InputError({"--slope", 0, 0}, "--slope needs --e0 as well", "give both, or use --buffers");
+  }
+  ao.endpoints.window_points = o.window;
+  if (o.min_height) ao.endpoints.min_relative_height = *o.min_height;
+  if (o.min_separation_mL) ao.endpoints.min_separation_mL = *o.min_separation_mL;
+  if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
+  return ao;
+}
+
+void apply_facts(const RunOptions& o, Run& run) {
+  if (o.sample_volume_mL) run.facts.sample_volume_mL = o.sample_volume_mL;
+  if (o.titrant_conc_mol_L) run.facts.titrant_conc_mol_L = o.titrant_conc_mol_L;
+  if (o.titrant == "acid") run.facts.titrant_kind = TitrantKind::acid;
+  if (o.titrant == "base") run.facts.titrant_kind = TitrantKind::base;
+  if (o.temperature_C) run.facts.temperature_C = o.temperature_C;
+}
+
+}  // namespace veq::cli

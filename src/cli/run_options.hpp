@@ -1,0 +1,45 @@
+// SPDX-License-Identifier: MIT
+// Options shared by every subcommand that reads runs: ingest overrides and run facts.
+#pragma once
+
+#include <optional>
+#include <string>
+
+#include <CLI/CLI.hpp>
+
+#include "veq/analyze.hpp"
+#include "veq/ingest/reader.hpp"
+
+namespace veq::cli {
+
+struct RunOptions {
+  std::optional<double> sample_volume_mL;
+  std::optional<double> titrant_conc_mol_L;
+  std::string titrant;  // "acid" or "base"
+  std::optional<double> temperature_C;
+  std::string columns;
+  std::string volume_unit;
+  std::string signal;   // "pH" or "mV"
+  bool sort = false;
+  double max_size_MiB = 64;
+  std::optional<double> e0_mV;
+  std::optional<double> slope_mV;
+  std::string buffers;  // "pH1:E1,pH2:E2"
+  int window = 0;
+  std::optional<double> min_height;
+  std::optional<double> min_separation_mL;
+};
+
+// Adds the shared options to a subcommand.
+void add_run_options(CLI::App* cmd, RunOptions& o);
+
+// The ingest options these stand for. Throws InputError for a bad value.
+[[nodiscard]] ingest::IngestOptions ingest_options(const RunOptions& o);
+
+// The analysis options these stand for. Throws InputError for a bad value.
+[[nodiscard]] AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C);
+
+// The command line wins over the file's metadata.
+void apply_facts(const RunOptions& o, Run& run);
+
+}  // namespace veq::cli

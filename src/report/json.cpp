@@ -1,0 +1,146 @@
+// SPDX-License-Identifier: MIT
+// JSON report of one run (schema veq.run/1).
+#include "veq/report/json.hpp"
+
+#include <cmath>
+#include <map>
+
+#include <nlohmann/json.hpp>
+
+namespace veq::report {
+namespace {
+
+using nlohmann::ordered_json;
+
+ordered_json number(double x, int decimals) {
+  if (!std::isfinite(x)) return nullptr;  // never reached by design; null rather than NaN
+  const double scale = std::pow(10.0, decimals);
+  double r = std::round(x * scale) / scale;
+  if (r == 0.0) r = 0.0;  // no "-0"
+  return r;
+}
+
+ordered_json significant(double x, int digits) {
+  if (!std::isfinite(x)) return nullptr;
+  if (x == 0.0) return 0.0;
+  const int mag = static_cast<int>(std::floor(std::log10(std::fabs(x))));
+  return number(x, digits - 1 - mag);
+}
+
+ordered_json location(const Diagnostic& d) {
+  ordered_json w;
+  w["code"] = d.code;
+  w["message"] = d.message;
+  if (d.where.line > 0) w["line"] = d.where.line;
+  return w;
+}
+
+ordered_json column(const Column& c) {
+  ordered_json j;
+  j["column"] = c.index + 1;
+  j["header"] = c.header;
+  j["unit"] = c.unit;
+  return j;
+}
+
+std::string separator_name(char sep) {
+  switch (sep) {
+    case ',': return "comma";
+    case ';': return "semicolon";
+    case '\t': return "tab";
+    case '|': return "bar";
+    default: return "spaces";
+  }
+}
+
+}  // namespace
+
+std::string to_json(const Analysis& a) {
+  const Run& run = a.run;
+  const Curve& c = a.curve;
+  ordered_json j;
+  j["schema"] = kRunSchema;
+  j["veq_version"] = version();
+
+  ordered_json r;
+  r["id"] = run.facts.sample_id;
+  r["source"] = run.source;
+  r["points"] = run.volume_mL.size();
+  r["signal"] = std::string(to_string(run.signal));
+  ordered_json md = ordered_json::object();
+  std::map<std::string, int> seen;
+  for (const auto& [k, v] : run.metadata) {
+    std::string key = k;
+    if (int n = ++seen[k]; n > 1) key += " (" + std::to_string(n) + ")";
+    md[key] = v;
+  }
+  r["metadata"] = md;
+  ordered_json facts = ordered_json::object();
+  if (run.facts.sample_volume_mL) facts["sample_volume_mL"] = number(*run.facts.sample_volume_mL, 6);
+  if (run.facts.sample_mass_g) facts["sample_mass_g"] = number(*run.facts.sample_mass_g, 6);
+  if (!run.facts.titrant_name.empty()) facts["titrant"] = run.facts.titrant_name;
+  facts["titrant_kind"] = std::string(to_string(run.facts.titrant_kind));
+  if (run.facts.titrant_conc_mol_L) facts["titrant_conc_mol_L"] = significant(*run.facts.titrant_conc_mol_L, 8);
+  if (run.facts.temperature_C) facts["temperature_C"] = number(*run.facts.temperature_C, 3);
+  r["facts"] = facts;
+  ordered_json dialect;
+  dialect["encoding"] = run.dialect.encoding;
+  dialect["line_ending"] = run.dialect.line_ending;
+  dialect["separator"] = separator_name(run.dialect.separator);
+  dialect["decimal"] = std::string(1, run.dialect.decimal);
+  dialect["header_line"] = run.dialect.header_line;
+  dialect["first_data_line"] = run.dialect.first_data_line;
+  r["dialect"] = dialect;
+  ordered_json cols;
+  cols["volume"] = column(run.volume_column);
+  cols["signal"] = column(run.signal_column);
+  if (run.temperature_column) cols["temperature"] = column(*run.temperature_column);
+  if (run.time_column) cols["time"] = column(*run.time_column);
+  r["columns"] = cols;
+  if (!run.volume_mL.empty()) {
+    r["volume_range_mL"] = {number(run.volume_mL.front(), 6), number(run.volume_mL.back(), 6)};
+  }
+  r["notes"] = run.notes;
+  j["run"] = r;
+
+  const bool ph = c.signal == SignalKind::ph;
+  const int level_decimals = ph ? 4 : 3;
+  ordered_json cj;
+  cj["signal"] = std::string(to_string(c.signal));
+  cj["points"] = c.volume_mL.size();
+  cj["converted_from_mV"] = c.converted_from_mv;
+  cj["direction"] = c.direction > 0 ? "rising" : "falling";
+  cj["noise_sd"] = significant(c.noise_sd, 3);
+  cj["temperature_C"] = number(c.temperature_C, 3);
+  cj["temperature_known"] = c.temperature_known;
+  std::size_t spikes = 0;
+  for (auto s : c.spike) spikes += s;
+  cj["spikes"] = spikes;
+  cj["derivative_window_points"] = a.endpoints.derivatives.window_points;
+  j["curve"] = cj;
+
+  ordered_json eps = ordered_json::array();
+  for (const auto& e : a.endpoints.endpoints) {
+    ordered_json ej;
+    ej["index"] = e.index;
+    ej["volume_mL"] = number(e.volume_mL, 6);
+    ej["uncertainty_mL"] = number(e.uncertainty_mL, 6);
+    ej[ph ? "pH" : "mV"] = number(e.value, level_decimals);
+    ej["level_method"] = e.value_method;
+    ordered_json methods = ordered_json::object();
+    if (e.first_derivative_mL) methods["first_derivative"]["volume_mL"] = number(*e.first_derivative_mL, 6);
+    if (e.second_derivative_mL) methods["second_derivative"]["volume_mL"] = number(*e.second_derivative_mL, 6);
+    ej["methods"] = methods;
+    ej["peak_slope"] = significant(e.peak_slope, 6);
+    ej["snr"] = significant(e.snr, 3);
+    ej["flags"] = e.flags;
+    eps.push_back(ej);
+  }
+  j["endpoints"] = eps;
+  ordered_json ws = ordered_json::array();
+  for (const auto& w : a.warnings) ws.push_back(location(w));
+  j["warnings"] = ws;
+  return j.dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n";
+}
+
+}  // namespace veq::report
