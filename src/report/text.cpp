@@ -39,8 +39,8 @@ std::string to_text(const Analysis& a) {
     out += "  ";
     if (run.facts.sample_volume_mL) out += fmt::format("sample {:g} mL  ", *run.facts.sample_volume_mL);
     if (run.facts.titrant_conc_mol_L) {
-      out += fmt::format("titrant {} {:g} mol/L", run.facts.titrant_name.empty() ? std::string("") : run.facts.titrant_name,
-                         *run.facts.titrant_conc_mol_L);
+      out += fmt::format("titrant {:g} mol/L", *run.facts.titrant_conc_mol_L);
+      if (!run.facts.titrant_name.empty()) out += " (" + run.facts.titrant_name + ")";
     }
     out += "\n";
   }

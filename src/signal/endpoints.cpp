@@ -292,12 +292,14 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
     const auto after_it = std::upper_bound(v.begin(), v.end(), e.volume_mL);
     const auto before_n = static_cast<std::size_t>(after_it - v.begin());
     const std::size_t after_n = n - before_n;
-    // At the edge: fewer than 3 readings beyond it, or the curve still steep
-    // (over a fifth of the peak slope) where the data end.
-    const bool still_steep = h.front() > 0.2 * hc || h.back() > 0.2 * hc;
+    // At the edge: fewer than 3 readings beyond it, or, for the first and last
+    // endpoint, the curve still over half as steep where the data begin or end.
+    const bool first = &pk == &accepted.front();
+    const bool last = &pk == &accepted.back();
+    const bool still_steep = (first && h.front() > 0.5 * hc) || (last && h.back() > 0.5 * hc);
     if (before_n < 3 || after_n < 3 || still_steep) e.flags.emplace_back(kFlagEdge);
     if (step > 3.0 * med_step) e.flags.emplace_back(kFlagFewPoints);
-    if (pk.snr < 4.0 * options.min_snr || std::fabs(est.v1 - est.v2) > step) e.flags.emplace_back(kFlagNoisy);
+    if (pk.snr < 2.0 * options.min_snr || std::fabs(est.v1 - est.v2) > step) e.flags.emplace_back(kFlagNoisy);
 
     // Level at the endpoint: local model over the jump and a few readings either side.
     std::size_t L = j, R = j;

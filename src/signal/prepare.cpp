@@ -42,12 +42,56 @@ std::vector<std::string> PrepareOptions::validate() const {
 }
 
 double estimate_noise(std::span<const double> v, std::span<const double> y) {
-  if (v.size() < 3) return 0.0;
-  std::vector<double> r;
-  r.reserve(v.size() - 2);
-  for (std::size_t i = 1; i + 1 < v.size(); ++i) r.push_back(std::fabs(neighbour_residual(v, y, i)));
+  const std::size_t n = v.size();
+  if (n < 3) return 0.0;
+  if (n < 7) {
+    std::vector<double> r;
+    for (std::size_t i = 1; i + 1 < n; ++i) r.push_back(std::fabs(neighbour_residual(v, y, i)));
+    return 1.4826 * median(std::move(r));
+  }
+  // Residual of each reading from the least-squares parabola through its two
+  // neighbours on each side (curvature of the curve cancels to second order),
+  // scaled by its SD in units of the reading SD; only readings where the curve
+  // is flatter than its median slope count, so that the jumps near endpoints,
+  // where dynamic dosing crowds readings, do not pass for noise.
+  std::vector<double> resid, slope;
+  resid.reserve(n);
+  slope.reserve(n);
+  for (std::size_t i = 2; i + 2 < n; ++i) {
+    const std::size_t idx[4] = {i - 2, i - 1, i + 1, i + 2};
+    const double s = std::max(v[i + 2] - v[i - 2], 1e-12);
+    double ata[3][3] = {}, w[4][3];
+    for (int k = 0; k < 4; ++k) {
+      const double x = (v[idx[k]] - v[i]) / s;
+      w[k][0] = 1.0, w[k][1] = x, w[k][2] = x * x;
+      for (int a = 0; a < 3; ++a)
+        for (int b = 0; b < 3; ++b) ata[a][b] += w[k][a] * w[k][b];
+    }
+    // Intercept weights: first row of (A^T A)^-1 A^T, by Cramer's rule on the 3x3 system.
+    const double det = ata[0][0] * (ata[1][1] * ata[2][2] - ata[1][2] * ata[2][1]) -
+                       ata[0][1] * (ata[1][0] * ata[2][2] - ata[1][2] * ata[2][0]) +
+                       ata[0][2] * (ata[1][0] * ata[2][1] - ata[1][1] * ata[2][0]);
+    if (!(std::fabs(det) > 1e-18)) continue;
+    const double c0 = (ata[1][1] * ata[2][2] - ata[1][2] * ata[2][1]) / det;
+    const double c1 = -(ata[0][1] * ata[2][2] - ata[0][2] * ata[2][1]) / det;
+    const double c2 = (ata[0][1] * ata[1][2] - ata[0][2] * ata[1][1]) / det;
+    double pred = 0.0, var = 1.0;
+    for (int k = 0; k < 4; ++k) {
+      const double wk = c0 * w[k][0] + c1 * w[k][1] + c2 * w[k][2];
+      pred += wk * y[idx[k]];
+      var += wk * wk;
+    }
+    resid.push_back(std::fabs(y[i] - pred) / std::sqrt(var));
+    slope.push_back(std::fabs(y[i + 1] - y[i - 1]) / std::max(v[i + 1] - v[i - 1], 1e-12));
+  }
+  if (resid.empty()) return 0.0;
+  const double cut = median(slope);
+  std::vector<double> flat;
+  for (std::size_t k = 0; k < resid.size(); ++k) {
+    if (slope[k] <= cut) flat.push_back(resid[k]);
+  }
   // 1.4826 * MAD is the SD of a Gaussian (the MAD's consistency constant).
-  return 1.4826 * median(std::move(r));
+  return 1.4826 * median(std::move(flat));
 }
 
 ElectrodeCalibration calibration_from_buffers(double pH1, double E1_mV, double pH2, double E2_mV,
