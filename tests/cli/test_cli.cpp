@@ -84,7 +84,7 @@ TEST_CASE("the same input gives byte-identical JSON", "[cli]") {
   CHECK(run({"analyze", f, "--json", "-"}).out == run({"analyze", f, "--json", "-"}).out);
 }
 
-TEST_CASE("--json FILE never replaces an existing file without --force", "[cli]") {
+TEST_CASE("analyze --json FILE never replaces an existing file without --force", "[cli]") {
   const std::string f = write("keep.csv", kRun);
   const fs::path out = scratch("keep.json");
   fs::remove(out);

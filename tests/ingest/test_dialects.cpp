@@ -254,7 +254,7 @@ TEST_CASE("numbers are read exactly (fast_float), decimals give the resolution",
   CHECK(r.signal_resolution == veq::test::close(0.001, 1e-12));
 }
 
-TEST_CASE("--sort accepts rows out of order", "[ingest]") {
+TEST_CASE("sorting on request accepts rows out of order", "[ingest]") {
   veq::ingest::IngestOptions o;
   o.sort_by_volume = true;
   const Run r = parse_run("V (mL),pH\n25.00,8.71\n0.00,3.12\n12.50,4.75\n", "r.csv", o);
