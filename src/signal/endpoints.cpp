@@ -208,6 +208,27 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
     double height;
     double snr;
   };
+  // Valley on each side of every point: the lowest (clamped at 0) derivative
+  // between it and the nearest higher one (or the end of the data), in O(n)
+  // with a monotonic stack; a peak's prominence is its height above the higher
+  // of its two valleys.
+  auto valleys = [&](bool from_left) {
+    std::vector<double> valley(m);
+    std::vector<std::pair<std::size_t, double>> stack;  // index, lowest value since the entry below it
+    for (std::size_t step = 0; step < m; ++step) {
+      const std::size_t j = from_left ? step : m - 1 - step;
+      double low = std::max(h[j], 0.0);
+      while (!stack.empty() && h[stack.back().first] <= h[j]) {
+        low = std::min(low, stack.back().second);
+        stack.pop_back();
+      }
+      valley[j] = low;
+      stack.emplace_back(j, low);
+    }
+    return valley;
+  };
+  const std::vector<double> left_valley = valleys(true);
+  const std::vector<double> right_valley = valleys(false);
   std::vector<Peak> cands;
   bool edge_steepest = false;
   for (std::size_t j = 0; j < m; ++j) {
@@ -219,21 +240,10 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
       if (j + 1 == m && j > 0 && h[j] >= 0.5 * top) edge_steepest = true;
       continue;
     }
-    // Prominence: height above the higher of the two valleys that separate it
-    // from a higher peak (or the end of the data).
-    double left = h[j], right = h[j];
-    for (std::size_t k = j; k-- > 0;) {
-      if (h[k] > h[j]) break;
-      left = std::min(left, std::max(h[k], 0.0));
-    }
-    for (std::size_t k = j + 1; k < m; ++k) {
-      if (h[k] > h[j]) break;
-      right = std::min(right, std::max(h[k], 0.0));
-    }
-    const double prominence = h[j] - std::max(left, right);
-    const double snr = d.d1_sd[j] > 0 ? h[j] / d.d1_sd[j] : 1e9;
     if (h[j] < options.min_relative_height * top) continue;
+    const double prominence = h[j] - std::max(left_valley[j], right_valley[j]);
     if (prominence < options.min_prominence * h[j]) continue;
+    const double snr = d.d1_sd[j] > 0 ? h[j] / d.d1_sd[j] : 1e9;
     if (snr < options.min_snr) continue;
     cands.push_back({j, h[j], snr});
   }
