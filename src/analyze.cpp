@@ -7,6 +7,7 @@ namespace veq {
 std::vector<std::string> AnalyzeOptions::validate() const {
   std::vector<std::string> all = prepare.validate();
   for (auto& p : endpoints.validate()) all.push_back(std::move(p));
+  for (auto& p : gran.validate()) all.push_back(std::move(p));
   return all;
 }
 
@@ -20,6 +21,22 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
   a.warnings = run.warnings;
   a.warnings.insert(a.warnings.end(), a.curve.warnings.begin(), a.curve.warnings.end());
   a.warnings.insert(a.warnings.end(), a.endpoints.warnings.begin(), a.endpoints.warnings.end());
+
+  signal::GranInputs gi;
+  gi.sample_volume_mL = run.facts.sample_volume_mL;
+  gi.titrant_conc_mol_L = run.facts.titrant_conc_mol_L;
+  gi.temperature_C = a.curve.temperature_C;
+  a.gran = signal::gran_endpoints(a.curve, a.endpoints.endpoints, gi, options.gran, a.warnings, run.source);
+  for (std::size_t i = 0; i < a.endpoints.endpoints.size(); ++i) {
+    signal::Endpoint& e = a.endpoints.endpoints[i];
+    const signal::GranEndpoint& g = a.gran[i];
+    const signal::Consensus c = signal::consensus(e, g);
+    e.volume_mL = c.volume_mL;
+    e.uncertainty_mL = c.uncertainty_mL;
+    e.consensus_methods = c.methods;
+    if (c.disagree) e.flags.emplace_back(signal::kFlagMethodsDisagree);
+    if ((g.before && !g.before->linear) || (g.after && !g.after->linear)) e.flags.emplace_back(signal::kFlagGranNonlinear);
+  }
   a.run = std::move(run);
   return a;
 }

@@ -7,6 +7,7 @@
 
 #include "veq/core/run.hpp"
 #include "veq/signal/endpoints.hpp"
+#include "veq/signal/gran.hpp"
 #include "veq/signal/prepare.hpp"
 
 namespace veq {
@@ -14,6 +15,7 @@ namespace veq {
 struct AnalyzeOptions {
   signal::PrepareOptions prepare;
   signal::EndpointOptions endpoints;
+  signal::GranOptions gran;
 
   // Problems of all the stage options, one line each; empty when valid.
   [[nodiscard]] std::vector<std::string> validate() const;
@@ -23,11 +25,13 @@ struct AnalyzeOptions {
 struct Analysis {
   Run run;
   Curve curve;
-  signal::EndpointResult endpoints;
+  signal::EndpointResult endpoints;  // volume_mL of each is the consensus of its methods
+  std::vector<signal::GranEndpoint> gran;  // one per endpoint (empty branches when skipped)
   std::vector<Diagnostic> warnings;  // run, curve and endpoint warnings, in that order
 };
 
-// Runs prepare and endpoint detection on a run read by ingest. Never throws
+// Runs prepare, derivative endpoints, Gran and the consensus on a run read by
+// ingest. Never throws
 // for curve content (no endpoint is a warning); throws InputError only for
 // invalid options.
 [[nodiscard]] Analysis analyze(Run run, const AnalyzeOptions& options = {});

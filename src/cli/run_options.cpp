@@ -3,6 +3,7 @@
 #include "cli/run_options.hpp"
 
 #include <cmath>
+#include <cstdio>
 
 #include "veq/core/constants.hpp"
 #include "veq/core/error.hpp"
@@ -44,6 +45,8 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
       ->group(endpoints);
   cmd->add_option("--min-separation", o.min_separation_mL, "Smallest distance between endpoints [mL] (default: 3 dosing steps)")
       ->group(endpoints);
+  cmd->add_option("--gran-window", o.gran_window, "Fit the Gran line only to readings in FROM:TO mL (default: chosen by the linearity rule)")
+      ->group(endpoints);
 }
 
 ingest::IngestOptions ingest_options(const RunOptions& o) {
@@ -82,6 +85,15 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
   ao.endpoints.window_points = o.window;
   if (o.min_height) ao.endpoints.min_relative_height = *o.min_height;
   if (o.min_separation_mL) ao.endpoints.min_separation_mL = *o.min_separation_mL;
+  if (!o.gran_window.empty()) {
+    double from = 0, to = 0;
+    char colon = 0, extra = 0;
+    if (std::sscanf(o.gran_window.c_str(), "%lf%c%lf%c", &from, &colon, &to, &extra) != 3 || colon != ':' || !(to > from)) {
+      throw InputError({"--gran-window", 0, 0}, "'" + o.gran_window + "' is not of the form FROM:TO (mL, FROM < TO)",
+                       "e.g. --gran-window 5.0:9.5");
+    }
+    ao.gran.window_mL = std::make_pair(from, to);
+  }
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   return ao;
 }

@@ -28,6 +28,7 @@ struct RunOptions {
   int window = 0;
   std::optional<double> min_height;
   std::optional<double> min_separation_mL;
+  std::string gran_window;  // "from:to" [mL]
 };
 
 // Adds the shared options to a subcommand.

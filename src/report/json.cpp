@@ -43,6 +43,24 @@ ordered_json column(const Column& c) {
   return j;
 }
 
+ordered_json gran_json(const signal::GranBranch& b) {
+  ordered_json g;
+  g["volume_mL"] = number(b.volume_mL, 6);
+  g["uncertainty_mL"] = number(b.uncertainty_mL, 6);
+  g["window_mL"] = {number(b.window_from_mL, 6), number(b.window_to_mL, 6)};
+  g["r2"] = number(b.r2, 6);
+  g["points"] = b.points;
+  g["function"] = std::string(signal::to_string(b.function));
+  g["linear"] = b.linear;
+  if (b.pKa) {
+    g["pKa"] = number(*b.pKa, 4);
+    if (b.pKa_std_error) g["pKa_std_error"] = significant(*b.pKa_std_error, 3);
+    g["pKa_activity_corrected"] = b.pKa_activity_corrected;
+    if (b.ionic_strength_mol_L) g["ionic_strength_mol_L"] = significant(*b.ionic_strength_mol_L, 3);
+  }
+  return g;
+}
+
 std::string separator_name(char sep) {
   switch (sep) {
     case ',': return "comma";
@@ -120,7 +138,8 @@ std::string to_json(const Analysis& a) {
   j["curve"] = cj;
 
   ordered_json eps = ordered_json::array();
-  for (const auto& e : a.endpoints.endpoints) {
+  for (std::size_t i = 0; i < a.endpoints.endpoints.size(); ++i) {
+    const auto& e = a.endpoints.endpoints[i];
     ordered_json ej;
     ej["index"] = e.index;
     ej["volume_mL"] = number(e.volume_mL, 6);
@@ -128,9 +147,16 @@ std::string to_json(const Analysis& a) {
     ej[ph ? "pH" : "mV"] = number(e.value, level_decimals);
     ej["level_method"] = e.value_method;
     ordered_json methods = ordered_json::object();
+    methods["derivative"]["volume_mL"] = number(e.derivative_volume_mL, 6);
+    methods["derivative"]["uncertainty_mL"] = number(e.derivative_uncertainty_mL, 6);
     if (e.first_derivative_mL) methods["first_derivative"]["volume_mL"] = number(*e.first_derivative_mL, 6);
     if (e.second_derivative_mL) methods["second_derivative"]["volume_mL"] = number(*e.second_derivative_mL, 6);
+    if (i < a.gran.size()) {
+      if (a.gran[i].before) methods["gran"] = gran_json(*a.gran[i].before);
+      if (a.gran[i].after) methods["gran_after"] = gran_json(*a.gran[i].after);
+    }
     ej["methods"] = methods;
+    ej["consensus_methods"] = e.consensus_methods;
     ej["peak_slope"] = significant(e.peak_slope, 6);
     ej["snr"] = significant(e.snr, 3);
     ej["flags"] = e.flags;

@@ -46,7 +46,8 @@ std::string to_text(const Analysis& a) {
   }
   const auto& eps = a.endpoints.endpoints;
   if (eps.empty()) out += "  No endpoint found.\n";
-  for (const auto& e : eps) {
+  for (std::size_t i = 0; i < eps.size(); ++i) {
+    const auto& e = eps[i];
     const int d = decimals_for(e.uncertainty_mL);
     out += fmt::format("  Endpoint {}: {:.{}f} ± {:.{}f} mL at {} {:.{}f}", e.index, e.volume_mL, d, e.uncertainty_mL, d,
                        to_string(c.signal), e.value, c.signal == SignalKind::ph ? 2 : 1);
@@ -57,6 +58,21 @@ std::string to_text(const Analysis& a) {
       for (const auto& f : e.flags) out += " " + f;
     }
     out += "\n";
+    if (i < a.gran.size()) {
+      for (const auto* b : {a.gran[i].before ? &*a.gran[i].before : nullptr, a.gran[i].after ? &*a.gran[i].after : nullptr}) {
+        if (b == nullptr) continue;
+        out += fmt::format("      Gran {}: {:.{}f} ± {:.{}f} mL ({}, {} readings {:.2f}–{:.2f} mL, R² {:.5f}{})", b->after ? "after" : "before",
+                           b->volume_mL, d, b->uncertainty_mL, d, signal::to_string(b->function), b->points, b->window_from_mL,
+                           b->window_to_mL, b->r2, b->linear ? "" : ", not straight");
+        if (b->pKa) out += fmt::format("; pKa {:.2f}{}", *b->pKa, b->pKa_activity_corrected ? "" : " (not corrected for activity)");
+        out += "\n";
+      }
+      if (e.consensus_methods.size() > 1 || e.consensus_methods.front() != "derivative") {
+        std::string m;
+        for (const auto& x : e.consensus_methods) m += (m.empty() ? "" : " + ") + x;
+        out += "      consensus of " + m + "\n";
+      }
+    }
   }
   if (!a.warnings.empty()) {
     out += "  Warnings:\n";

@@ -185,7 +185,25 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
                             {file, 0, 0}});
     return out;
   }
-  const int window = options.window_points > 0 ? options.window_points : auto_window(v, y, curve.noise_sd);
+  // Window: the noise rule (auto_window), but never wider than the narrowest
+  // window at which the run's highest peak already stands 40 derivative-noise
+  // SDs tall (a wide window blurs a sharp jump, worst at the ends of the data).
+  int window = options.window_points;
+  if (window == 0) {
+    window = auto_window(v, y, curve.noise_sd);
+    for (int w = 2; w < window; w += 2) {
+      const Derivatives trial = derivatives(v, y, w, curve.noise_sd);
+      double best = 0;
+      for (std::size_t i = 0; i < trial.d1.size(); ++i) {
+        const double snr = trial.d1_sd[i] > 0 ? curve.direction * trial.d1[i] / trial.d1_sd[i] : 0.0;
+        best = std::max(best, snr);
+      }
+      if (best >= 40.0) {
+        window = w;
+        break;
+      }
+    }
+  }
   out.derivatives = derivatives(v, y, window, curve.noise_sd);
   const Derivatives& d = out.derivatives;
   const std::size_t m = d.d1.size();
@@ -297,6 +315,8 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
     }
     const double half_diff = 0.5 * (est.v1 - est.v2);
     e.uncertainty_mL = std::sqrt(half_diff * half_diff + u_step * u_step + u_noise2);
+    e.derivative_volume_mL = e.volume_mL;
+    e.derivative_uncertainty_mL = e.uncertainty_mL;
 
     // Flags.
     const auto after_it = std::upper_bound(v.begin(), v.end(), e.volume_mL);

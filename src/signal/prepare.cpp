@@ -176,7 +176,13 @@ Curve prepare(const Run& run, const PrepareOptions& options) {
   c.spike.assign(c.volume_mL.size(), 0);
   const double floor = c.signal == SignalKind::ph ? options.min_noise_pH : options.min_noise_pH * 60.0;
   const double quantisation = c.resolution / std::sqrt(12.0);  // SD of rounding to the last digit
-  c.noise_sd = std::max({estimate_noise(c.volume_mL, c.value), floor, quantisation});
+  // A short run has too few flat stretches to measure its noise: assume a
+  // typical reading repeatability instead.
+  const double nominal = c.signal == SignalKind::ph ? kNominalNoise_pH : kNominalNoise_pH * 59.16;
+  auto measured = [&](std::span<const double> v, std::span<const double> y) {
+    return v.size() >= kMinReadingsForNoise ? estimate_noise(v, y) : nominal;
+  };
+  c.noise_sd = std::max({measured(c.volume_mL, c.value), floor, quantisation});
 
   // Isolated spikes: far off the line through their neighbours, against the trend,
   // while the neighbours agree with each other.
@@ -209,7 +215,7 @@ Curve prepare(const Run& run, const PrepareOptions& options) {
     for (std::size_t i = 0; i < n; ++i) {
       if (c.spike[i] == 0) v.push_back(c.volume_mL[i]), y.push_back(c.value[i]);
     }
-    c.noise_sd = std::max({estimate_noise(v, y), floor, quantisation});
+    c.noise_sd = std::max({measured(v, y), floor, quantisation});
   }
 
   // Direction of the curve, from the first and last good points.

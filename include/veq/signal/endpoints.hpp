@@ -12,8 +12,9 @@
 namespace veq::signal {
 
 struct EndpointOptions {
-  // Readings per derivative window (even, >= 2); 0 chooses from the data
-  // (see auto_window).
+  // Readings per derivative window (even, >= 2); 0 chooses from the data:
+  // auto_window's noise rule, narrowed to the smallest window at which the
+  // highest peak is at least 40 derivative-noise SDs tall.
   int window_points = 0;
   // A derivative peak is an endpoint only if its height is at least this
   // fraction of the highest peak of the run [-].
@@ -40,8 +41,11 @@ inline constexpr const char* kFlagNoisy = "noisy";            // weak beside the
 
 struct Endpoint {
   int index = 0;                 // 1-based, in order of volume
-  double volume_mL = 0.0;        // the endpoint volume reported [mL]
+  double volume_mL = 0.0;        // the endpoint volume reported: the consensus of the methods [mL]
   double uncertainty_mL = 0.0;   // standard uncertainty of volume_mL [mL]
+  double derivative_volume_mL = 0.0;       // mean of the two derivative estimates [mL]
+  double derivative_uncertainty_mL = 0.0;  // its standard uncertainty [mL]
+  std::vector<std::string> consensus_methods = {"derivative"};  // estimates combined into volume_mL
   double value = 0.0;            // pH (or mV) at the endpoint [pH] or [mV]
   std::string value_method;      // "local_model" or "interpolated"
   std::optional<double> first_derivative_mL;   // vertex of the dy/dV peak [mL]

@@ -38,6 +38,14 @@ struct PrepareOptions {
 inline constexpr double kMinSlopeFraction = 0.80;
 inline constexpr double kMaxSlopeFraction = 1.10;
 
+// Runs with fewer readings than this get the nominal noise instead of an
+// estimate: the residual method needs flat stretches a short run lacks.
+inline constexpr std::size_t kMinReadingsForNoise = 20;
+// Nominal reading noise: the 0.01 pH resolution of a laboratory meter as a
+// rounding SD, doubled for electrode noise (REFERENCES §10: meter 0.01 pH;
+// routine pH rarely better than ±0.02) [pH].
+inline constexpr double kNominalNoise_pH = 0.006;
+
 // Calibration from two buffers (pH1 read as E1 mV, pH2 as E2 mV) at temperature_C.
 // Throws InputError when the buffers are equal or the slope is implausible.
 [[nodiscard]] ElectrodeCalibration calibration_from_buffers(double pH1, double E1_mV, double pH2, double E2_mV,

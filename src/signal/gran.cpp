@@ -1,0 +1,436 @@
+// SPDX-License-Identifier: MIT
+// Gran plots: weighted straight lines through linearised branches, window by a linearity rule.
+#include "veq/signal/gran.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include <boost/math/distributions/chi_squared.hpp>
+#include <fmt/format.h>
+
+#include "veq/core/constants.hpp"
+
+namespace veq::signal {
+namespace {
+
+using constants::kLn10;
+
+struct Fit {
+  double a = 0, b = 0;                 // y = a + b x
+  double var_a = 0, var_b = 0, cov_ab = 0;  // unscaled (weights as 1/sigma^2)
+  double chi2 = 0;
+  double r2 = 0;
+  int n = 0;
+  [[nodiscard]] double reduced() const { return n > 2 ? chi2 / (n - 2) : 1e300; }
+};
+
+// Weighted least squares on [lo, hi], two-pass (centred) for accuracy.
+Fit fit_line(const std::vector<double>& x, const std::vector<double>& y, const std::vector<double>& w, std::size_t lo,
+             std::size_t hi) {
+  Fit f;
+  f.n = static_cast<int>(hi - lo + 1);
+  double sw = 0, sx = 0, sy = 0;
+  for (std::size_t i = lo; i <= hi; ++i) sw += w[i], sx += w[i] * x[i], sy += w[i] * y[i];
+  const double xm = sx / sw, ym = sy / sw;
+  double sxx = 0, sxy = 0, syy = 0;
+  for (std::size_t i = lo; i <= hi; ++i) {
+    const double dx = x[i] - xm, dy = y[i] - ym;
+    sxx += w[i] * dx * dx, sxy += w[i] * dx * dy, syy += w[i] * dy * dy;
+  }
+  if (!(sxx > 0)) {
+    f.chi2 = 1e300;
+    return f;
+  }
+  f.b = sxy / sxx;
+  f.a = ym - f.b * xm;
+  f.var_b = 1.0 / sxx;
+  f.var_a = 1.0 / sw + xm * xm / sxx;
+  f.cov_ab = -xm / sxx;
+  double chi2 = 0;
+  for (std::size_t i = lo; i <= hi; ++i) {
+    const double r = y[i] - f.a - f.b * x[i];
+    chi2 += w[i] * r * r;
+  }
+  f.chi2 = chi2;
+  f.r2 = syy > 0 ? 1.0 - chi2 / syy : 1.0;
+  return f;
+}
+
+// Wald-Wolfowitz runs test on residual signs: true when there are too few
+// runs for chance (one-sided, 1 %), i.e. the residuals follow a curve.
+bool residual_pattern(const std::vector<double>& x, const std::vector<double>& y, std::size_t lo, std::size_t hi,
+                      const Fit& f) {
+  const std::size_t n = hi - lo + 1;
+  if (n < 10) return false;
+  int pos = 0, neg = 0, runs = 0, last = 0;
+  for (std::size_t i = lo; i <= hi; ++i) {
+    const double r = y[i] - f.a - f.b * x[i];
+    const int s = r >= 0 ? 1 : -1;
+    (s > 0 ? pos : neg)++;
+    if (s != last) ++runs, last = s;
+  }
+  if (pos == 0 || neg == 0) return true;
+  const double nn = static_cast<double>(n);
+  const double mu = 2.0 * pos * neg / nn + 1.0;
+  const double var = (mu - 1.0) * (mu - 2.0) / (nn - 1.0);
+  if (!(var > 0)) return false;
+  return (runs - mu) / std::sqrt(var) < -2.326;
+}
+
+double chi2_limit(int n) {
+  // Accept a window whose reduced chi-square is below twice the 99 % point of
+  // its distribution: the factor allows the noise estimate to be low by sqrt(2).
+  const int dof = std::max(1, n - 2);
+  boost::math::chi_squared dist(dof);
+  return 2.0 * boost::math::quantile(dist, 0.99) / dof;
+}
+
+struct Series {
+  std::vector<double> v, g, w;  // abscissa (volume, or effective volume), scaled Gran function, weight
+  double u_ref = 0;
+};
+
+// pKw(T), Harned & Robinson (1940): 4470.99/T - 6.0875 + 0.01706 T, T in K
+// (REFERENCES §3; from memory; within 0.02 of the handbook table at 0-60 °C).
+// Only the effective-volume correction of buffer branches uses it.
+double pKw_of(double temperature_C) {
+  const double T = temperature_C + constants::kZeroCelsius;
+  return 4470.99 / T - 6.0875 + 0.01706 * T;
+}
+
+// Davies: log10 gamma = -A z^2 (sqrt(I)/(1+sqrt(I)) - 0.3 I); A(T) on the
+// molar scale interpolated in the table printed with the Kielland values
+// (REFERENCES §4; Manov et al. / Truesdell-Jones).
+double davies_log_gamma(int z, double ionic_strength, double temperature_C) {
+  static const double t[] = {0, 5, 10, 15, 20, 25, 30, 35, 40, 50, 60};
+  static const double A[] = {0.4883, 0.4921, 0.4960, 0.5000, 0.5042, 0.5085, 0.5130, 0.5175, 0.5221, 0.5319, 0.5425};
+  const double tc = std::clamp(temperature_C, 0.0, 60.0);
+  std::size_t k = 0;
+  while (k + 2 < std::size(t) && tc > t[k + 1]) ++k;
+  const double a = A[k] + (A[k + 1] - A[k]) * (tc - t[k]) / (t[k + 1] - t[k]);
+  const double sq = std::sqrt(ionic_strength);
+  return -a * z * z * (sq / (1.0 + sq) - 0.3 * ionic_strength);
+}
+
+struct Trimmed {
+  Fit fit;
+  std::size_t lo = 0, hi = 0;
+  bool linear = false;
+  bool ok = false;
+};
+
+// Shrinks [lo, hi] from whichever end improves the fit more until the line
+// passes the chi-square and runs rules; keeps the best window seen otherwise.
+Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bool fixed) {
+  Trimmed best;
+  double best_score = 1e300;
+  while (static_cast<int>(hi - lo + 1) >= min_points) {
+    const Fit f = fit_line(s.v, s.g, s.w, lo, hi);
+    if (!(std::fabs(f.b) > 0) || !std::isfinite(f.a)) break;
+    const double score = f.reduced() / chi2_limit(f.n);
+    if (score < best_score) best_score = score, best = {f, lo, hi, false, true};
+    if (fixed || (f.reduced() <= chi2_limit(f.n) && !residual_pattern(s.v, s.g, lo, hi, f))) {
+      return {f, lo, hi, !fixed || f.reduced() <= chi2_limit(f.n), true};
+    }
+    if (static_cast<int>(hi - lo) < min_points) break;
+    const Fit fl = fit_line(s.v, s.g, s.w, lo + 1, hi);
+    const Fit fh = fit_line(s.v, s.g, s.w, lo, hi - 1);
+    if (fl.reduced() < fh.reduced()) ++lo;
+    else --hi;
+  }
+  return best;
+}
+
+}  // namespace
+
+std::string_view to_string(GranFunction f) {
+  switch (f) {
+    case GranFunction::excess_analyte: return "excess_analyte";
+    case GranFunction::excess_titrant: return "excess_titrant";
+    case GranFunction::buffer: return "buffer";
+  }
+  return "excess_analyte";
+}
+
+std::vector<std::string> GranOptions::validate() const {
+  std::vector<std::string> p;
+  if (window_mL && !(window_mL->first >= 0 && window_mL->second > window_mL->first)) {
+    p.push_back(fmt::format("gran window {:g}:{:g} mL: expected from < to, both 0 or more", window_mL->first,
+                            window_mL->second));
+  }
+  if (!(before_from >= 0 && before_from < before_to && before_to <= 1.0 && before_from < buffer_to && buffer_to <= 1.0)) {
+    p.push_back(fmt::format("gran before_from/before_to/buffer_to = {:g}/{:g}/{:g}: expected 0 <= from < to <= 1",
+                            before_from, before_to, buffer_to));
+  }
+  if (!(max_offset > 0 && max_offset <= 1)) p.push_back(fmt::format("gran max_offset = {:g}: expected (0, 1]", max_offset));
+  if (!(after_from >= 0 && after_from < after_to)) {
+    p.push_back(fmt::format("gran after_from/after_to = {:g}/{:g}: expected 0 <= from < to", after_from, after_to));
+  }
+  if (min_points < 3) p.push_back(fmt::format("gran min_points = {}: must be at least 3", min_points));
+  if (analyte_charge < -4 || analyte_charge > 4) p.push_back(fmt::format("analyte_charge = {}: expected -4..4", analyte_charge));
+  if (!(background_ionic_strength_mol_L >= 0 && background_ionic_strength_mol_L < 5)) {
+    p.push_back(fmt::format("background ionic strength = {:g} mol/L: expected 0 to 5", background_ionic_strength_mol_L));
+  }
+  return p;
+}
+
+std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<Endpoint>& endpoints,
+                                         const GranInputs& inputs, const GranOptions& options,
+                                         std::vector<Diagnostic>& warnings, const std::string& file) {
+  std::vector<GranEndpoint> out(endpoints.size());
+  if (endpoints.empty()) return out;
+  if (!inputs.sample_volume_mL) {
+    warnings.push_back({"gran_skipped",
+                        "Gran method skipped: the sample volume is not known (give --sample-volume, a method, or a "
+                        "'Sample volume' line in the file)",
+                        {file, 0, 0}});
+    return out;
+  }
+  const double V0 = *inputs.sample_volume_mL;
+  const int d = curve.direction;
+  // u: pH, or for an uncalibrated mV run -E/s (rises with pH for the usual electrode sign).
+  const bool mv = curve.signal == SignalKind::mv;
+  const double s_mV = nernst_slope_mV(curve.temperature_C);
+  std::vector<double> V, U;
+  for (std::size_t i = 0; i < curve.volume_mL.size(); ++i) {
+    if (i < curve.spike.size() && curve.spike[i]) continue;
+    V.push_back(curve.volume_mL[i]);
+    U.push_back(mv ? -curve.value[i] / s_mV : curve.value[i]);
+  }
+  // Direction of u: an mV curve that falls (pH rising, usual electrode sign) has u rising.
+  const int ud = mv ? -d : d;
+  const double sigma_u = std::max(mv ? curve.noise_sd / s_mV : curve.noise_sd, 1e-4);
+
+  // Builds the scaled Gran series of one function over indices [lo, hi].
+  // sign: -1 for 10^(-u) (excess acid / acid buffer for a rising u), +1 for 10^(u - 14).
+  // A buffer branch of a calibrated run with a known titrant concentration uses
+  // the effective volume V' = V + ud (V0 + V)([H+] - [OH-]) / Ct, the titrant
+  // that went into converting the analyte, which makes G = (V' - V_prev) 10^(-/+pH)
+  // exactly straight against V' (charge balance; see DEVELOPERS.md, "Gran's method").
+  const bool effective = !mv && inputs.titrant_conc_mol_L.has_value();
+  const double kw = std::pow(10.0, -pKw_of(curve.temperature_C));
+  auto series = [&](GranFunction f, double v_prev, std::size_t lo, std::size_t hi, int sign) {
+    Series s;
+    double mean_u = 0;
+    for (std::size_t i = lo; i <= hi; ++i) mean_u += U[i];
+    s.u_ref = mean_u / static_cast<double>(hi - lo + 1);
+    for (std::size_t i = lo; i <= hi; ++i) {
+      double x = V[i];
+      if (f == GranFunction::buffer && effective) {
+        const double h = std::pow(10.0, -U[i]);
+        x = V[i] + ud * (V0 + V[i]) * (h - kw / h) / *inputs.titrant_conc_mol_L;
+      }
+      const double pre = f == GranFunction::buffer ? (x - v_prev) : (V0 + V[i]);
+      const double g = pre * std::pow(10.0, sign * (U[i] - s.u_ref));
+      // Noise: dG = G ln10 du, so weight 1/(G ln10 sigma)^2 (constant relative noise).
+      const double sg = std::max(std::fabs(g) * kLn10 * sigma_u, 1e-300);
+      s.v.push_back(x);
+      s.g.push_back(g);
+      s.w.push_back(1.0 / (sg * sg));
+    }
+    return s;
+  };
+
+  auto index_range = [&](double from, double to, std::size_t& lo, std::size_t& hi) {
+    lo = static_cast<std::size_t>(std::lower_bound(V.begin(), V.end(), from) - V.begin());
+    const auto end = static_cast<std::size_t>(std::upper_bound(V.begin(), V.end(), to) - V.begin());
+    if (end == 0 || lo >= end) return false;
+    hi = end - 1;
+    return static_cast<int>(hi - lo + 1) >= options.min_points;
+  };
+
+  // Fits one branch; nullopt when it has too few readings or no line.
+  auto branch = [&](GranFunction f, bool after, double v_prev, double from, double to, int sign, bool fixed,
+                    double v_expect, double seg) -> std::optional<GranBranch> {
+    std::size_t lo = 0, hi = 0;
+    if (!index_range(from, to, lo, hi)) return std::nullopt;
+    // Thin very long windows for the search, refit on all readings at the end.
+    const Series full = series(f, v_prev, lo, hi, sign);
+    const std::size_t n = full.v.size();
+    std::size_t stride = n > 400 ? n / 400 : 1;
+    Series thin;
+    if (stride > 1) {
+      thin.u_ref = full.u_ref;
+      for (std::size_t i = 0; i < n; i += stride) thin.v.push_back(full.v[i]), thin.g.push_back(full.g[i]), thin.w.push_back(full.w[i]);
+    }
+    const Series& search = stride > 1 ? thin : full;
+    Trimmed t = trim(search, 0, search.v.size() - 1, options.min_points, fixed);
+    if (!t.ok) return std::nullopt;
+    std::size_t flo = t.lo, fhi = t.hi;
+    Fit fit = t.fit;
+    if (stride > 1) {
+      flo = t.lo * stride;
+      fhi = std::min(n - 1, t.hi * stride);
+      fit = fit_line(full.v, full.g, full.w, flo, fhi);
+    }
+    if (!(std::fabs(fit.b) > 0)) return std::nullopt;
+    GranBranch b;
+    b.function = f;
+    b.after = after;
+    b.points = fit.n;
+    b.window_from_mL = V[lo + flo];
+    b.window_to_mL = V[lo + fhi];
+    b.r2 = fit.r2;
+    b.reduced_chi2 = fit.reduced();
+    b.linear = t.linear;
+    b.slope = fit.b;
+    b.intercept = fit.a;
+    const double x0 = -fit.a / fit.b;
+    // Standard error of the x-intercept from the full covariance, scaled by the residual variance.
+    const double s2 = fit.reduced();
+    const double var_x0 = s2 * (fit.var_a + x0 * x0 * fit.var_b + 2.0 * x0 * fit.cov_ab) / (fit.b * fit.b);
+    b.volume_mL = x0;
+    b.uncertainty_mL = std::sqrt(std::max(var_x0, 0.0));
+    if (!std::isfinite(b.volume_mL) || !std::isfinite(b.uncertainty_mL)) return std::nullopt;
+    // A line whose intercept is far from the derivative endpoint does not describe this branch.
+    if (std::fabs(b.volume_mL - v_expect) > options.max_offset * seg) return std::nullopt;
+    for (std::size_t i = flo; i <= fhi; ++i) b.line_points.emplace_back(full.v[i], full.g[i]);
+    return b;
+  };
+
+  const std::size_t n_ep = endpoints.size();
+  for (std::size_t k = 0; k < n_ep; ++k) {
+    const double vk = endpoints[k].volume_mL;
+    const double vp = k == 0 ? 0.0 : endpoints[k - 1].volume_mL;
+    const double seg = vk - vp;
+    if (!(seg > 0)) continue;
+    const bool last = k + 1 == n_ep;
+    // Manual window: the branch it falls in.
+    const auto& win = options.window_mL;
+    const bool win_before = win && win->first >= vp && win->second <= vk;
+    const bool win_after = win && last && win->first >= vk;
+
+    // Before the endpoint. For u rising: excess analyte and buffer use 10^(-u).
+    const int before_sign = ud > 0 ? -1 : +1;
+    if (!win || win_before) {
+      const double from = win_before ? win->first : vp + options.before_from * seg;
+      const double to = win_before ? win->second : vp + options.before_to * seg;
+      const double buffer_to = win_before ? win->second : vp + options.buffer_to * seg;
+      std::optional<GranBranch> strong, buffer;
+      if (k == 0) strong = branch(GranFunction::excess_analyte, false, 0.0, from, to, before_sign, win_before, vk, seg);
+      buffer = branch(GranFunction::buffer, false, vp, from, buffer_to, before_sign, win_before, vk, seg);
+      auto better = [](const std::optional<GranBranch>& a, const std::optional<GranBranch>& b) {
+        if (!a) return false;
+        if (!b) return true;
+        if (a->linear != b->linear) return a->linear;
+        if (a->points != b->points) return a->points > b->points;
+        return a->reduced_chi2 < b->reduced_chi2;
+      };
+      std::optional<GranBranch> chosen = better(strong, buffer) ? strong : buffer;
+      if (chosen && chosen->function == GranFunction::buffer && !mv) {
+        // pKa from the buffer slope: for u rising G = (V - V_prev) 10^(-pH) = Ka' (V_eq - V);
+        // for u falling G = (V - V_prev) 10^(pH) = (V_eq - V) / Ka'. G was scaled by 10^(-/+ u_ref).
+        std::size_t lo = 0, hi = 0;
+        (void)index_range(chosen->window_from_mL, chosen->window_to_mL, lo, hi);
+        double uref = 0;
+        for (std::size_t i = lo; i <= hi; ++i) uref += U[i];
+        uref /= static_cast<double>(hi - lo + 1);
+        // Refit the chosen window with G scaled by its own mean level.
+        const Series sr = series(GranFunction::buffer, vp, lo, hi, before_sign);
+        const Fit f = fit_line(sr.v, sr.g, sr.w, 0, sr.v.size() - 1);
+        const double b = f.b;
+        if (b < 0) {
+          const double pKa_c = ud > 0 ? -std::log10(-b) + uref : std::log10(-b) + uref;
+          const double se_b = std::sqrt(std::max(f.reduced() * f.var_b, 0.0));
+          chosen->pKa = pKa_c;
+          chosen->pKa_std_error = se_b / (std::fabs(b) * kLn10);
+          if (options.activity_correction && inputs.titrant_conc_mol_L) {
+            const double ct = *inputs.titrant_conc_mol_L;
+            const double vm = 0.5 * (chosen->window_from_mL + chosen->window_to_mL);
+            const double x = std::clamp((vm - vp) / seg, 0.0, 1.0);
+            const double c_an = ct * seg / (V0 + vm);
+            const int step = static_cast<int>(k) + 1;
+            const int z0 = options.analyte_charge;
+            int z_acid = 0, z_base = 0;
+            if (ud > 0) z_acid = z0 - (step - 1), z_base = z0 - step;
+            else z_base = z0 + (step - 1), z_acid = z0 + step;
+            // Ionic strength from the stoichiometry: titrant counter-ion, the analyte's own
+            // counter-ions (singly charged), the two forms of this step, a background.
+            const double za2 = z_acid * z_acid, zb2 = z_base * z_base;
+            const double forms = ud > 0 ? c_an * ((1 - x) * za2 + x * zb2) : c_an * ((1 - x) * zb2 + x * za2);
+            const double ionic = 0.5 * (ct * vm / (V0 + vm) + std::abs(z0) * c_an + forms) +
+                                 options.background_ionic_strength_mol_L;
+            chosen->ionic_strength_mol_L = ionic;
+            // pKa = pKa' - log gamma(base form) + log gamma(acid form)
+            chosen->pKa = pKa_c - davies_log_gamma(z_base, ionic, inputs.temperature_C) +
+                          davies_log_gamma(z_acid, ionic, inputs.temperature_C);
+            chosen->pKa_activity_corrected = true;
+          }
+        }
+      }
+      out[k].before = chosen;
+    }
+    // After the last endpoint: excess titrant, 10^(u - 14) for u rising.
+    if (last && (!win || win_after)) {
+      const double from = win_after ? win->first : vk + options.after_from * seg;
+      const double to = win_after ? win->second : vk + options.after_to * seg;
+      out[k].after = branch(GranFunction::excess_titrant, true, 0.0, from, to, -before_sign, win_after, vk, seg);
+    }
+    if (!out[k].before && !out[k].after) {
+      warnings.push_back({"gran_failed",
+                          fmt::format("Gran method: no straight branch found for endpoint {} ({:.3f} mL)", k + 1, vk),
+                          {file, 0, 0}});
+    }
+  }
+  if (options.window_mL) {
+    const bool used = std::any_of(out.begin(), out.end(), [](const GranEndpoint& g) { return g.before || g.after; });
+    if (!used) {
+      warnings.push_back({"gran_window",
+                          fmt::format("the Gran window {:g}:{:g} mL lies in no branch of this run (before an endpoint, "
+                                      "or after the last one) or holds too few readings",
+                                      options.window_mL->first, options.window_mL->second),
+                          {file, 0, 0}});
+    }
+  }
+  return out;
+}
+
+Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
+  struct Est {
+    std::string name;
+    double v, u;
+    bool flagged;
+  };
+  std::vector<Est> all;
+  const bool d_flagged = std::any_of(e.flags.begin(), e.flags.end(), [](const std::string& f) {
+    return f == kFlagEdge || f == kFlagFewPoints;
+  });
+  all.push_back({"derivative", e.volume_mL, e.uncertainty_mL, d_flagged});
+  if (g.before && g.before->linear) all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
+  if (g.after && g.after->linear) all.push_back({"gran_after", g.after->volume_mL, g.after->uncertainty_mL, false});
+  const bool any_clean = std::any_of(all.begin(), all.end(), [](const Est& x) { return !x.flagged; });
+  std::vector<Est> used;
+  for (const auto& x : all) {
+    if (!any_clean || !x.flagged) used.push_back(x);
+  }
+  Consensus c;
+  double sw = 0, swv = 0;
+  for (const auto& x : used) {
+    const double u = std::max(x.u, 1e-6);
+    sw += 1.0 / (u * u);
+    swv += x.v / (u * u);
+    c.methods.push_back(x.name);
+  }
+  c.volume_mL = swv / sw;
+  double u = 1.0 / std::sqrt(sw);
+  if (used.size() > 1) {
+    // Birge ratio: inflate when the estimates scatter more than their uncertainties say.
+    double chi2 = 0;
+    for (const auto& x : used) {
+      const double ux = std::max(x.u, 1e-6);
+      chi2 += (x.v - c.volume_mL) * (x.v - c.volume_mL) / (ux * ux);
+    }
+    const double birge = std::sqrt(chi2 / static_cast<double>(used.size() - 1));
+    if (birge > 1) u *= birge;
+  }
+  c.uncertainty_mL = u;
+  for (std::size_t i = 0; i < all.size(); ++i) {
+    for (std::size_t j = i + 1; j < all.size(); ++j) {
+      const double comb = std::sqrt(all[i].u * all[i].u + all[j].u * all[j].u);
+      if (std::fabs(all[i].v - all[j].v) > 2.0 * comb) c.disagree = true;
+    }
+  }
+  return c;
+}
+
+}  // namespace veq::signal
