@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "veq/core/run.hpp"
+#include "veq/indicators/colour_change.hpp"
 #include "veq/signal/endpoints.hpp"
 #include "veq/signal/prepare.hpp"
 
@@ -14,6 +15,7 @@ namespace veq {
 struct AnalyzeOptions {
   signal::PrepareOptions prepare;
   signal::EndpointOptions endpoints;
+  indicators::IndicatorOptions indicators;
 
   // Problems of all the stage options, one line each; empty when valid.
   [[nodiscard]] std::vector<std::string> validate() const;
@@ -24,10 +26,11 @@ struct Analysis {
   Run run;
   Curve curve;
   signal::EndpointResult endpoints;
-  std::vector<Diagnostic> warnings;  // run, curve and endpoint warnings, in that order
+  indicators::IndicatorResult indicators;  // per endpoint: indicators that change colour there
+  std::vector<Diagnostic> warnings;  // run, curve, endpoint and indicator warnings, in that order
 };
 
-// Runs prepare and endpoint detection on a run read by ingest. Never throws
+// Runs prepare, endpoint detection and the indicator check on a run read by ingest. Never throws
 // for curve content (no endpoint is a warning); throws InputError only for
 // invalid options.
 [[nodiscard]] Analysis analyze(Run run, const AnalyzeOptions& options = {});

@@ -44,6 +44,9 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
       ->group(endpoints);
   cmd->add_option("--min-separation", o.min_separation_mL, "Smallest distance between endpoints [mL] (default: 3 dosing steps)")
       ->group(endpoints);
+  cmd->add_option("--drop-volume", o.drop_volume_mL, "Volume of one drop from the burette [mL] (default 0.05)")
+      ->group("Indicators")
+      ->check(CLI::Range(0.001, 1.0));
 }
 
 ingest::IngestOptions ingest_options(const RunOptions& o) {
@@ -82,6 +85,7 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
   ao.endpoints.window_points = o.window;
   if (o.min_height) ao.endpoints.min_relative_height = *o.min_height;
   if (o.min_separation_mL) ao.endpoints.min_separation_mL = *o.min_separation_mL;
+  if (o.drop_volume_mL) ao.indicators.drop_volume_mL = *o.drop_volume_mL;
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   return ao;
 }

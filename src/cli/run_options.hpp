@@ -28,6 +28,7 @@ struct RunOptions {
   int window = 0;
   std::optional<double> min_height;
   std::optional<double> min_separation_mL;
+  std::optional<double> drop_volume_mL;  // --drop-volume: one drop from the burette [mL]
 };
 
 // Adds the shared options to a subcommand.

@@ -7,6 +7,8 @@
 
 #include <fmt/format.h>
 
+#include "report/indicator_sections.hpp"
+
 namespace veq::report {
 namespace {
 
@@ -57,11 +59,13 @@ std::string to_text(const Analysis& a) {
       for (const auto& f : e.flags) out += " " + f;
     }
     out += "\n";
+    out += detail::endpoint_indicators_line(a, e.index);
   }
   if (!a.warnings.empty()) {
     out += "  Warnings:\n";
     for (const auto& w : a.warnings) out += "    " + to_string(w) + "\n";
   }
+  out += std::string("  ") + safety_caution() + "\n";
   return out;
 }
 
