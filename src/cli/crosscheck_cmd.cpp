@@ -45,7 +45,8 @@ void add_crosscheck(CLI::App& app, Action& action) {
                   st->burette_tolerance_mL,
                   "Burette tolerance [mL] (default 0.05: Class A 50 mL, ISO 385 / ASTM E287)")
       ->check(CLI::Range(0.0, 5.0));
-  cmd->add_option("--json", st->json, "Also write the run and the cross-check as JSON to FILE, or '-' for standard output");
+  cmd->add_option(
+      "--json", st->json, "Also write the run and the cross-check as JSON to FILE, or '-' for standard output");
   cmd->add_flag("--force", st->force, "Replace an existing output file");
   cmd->add_flag("-q,--quiet", st->quiet, "No summary on standard output");
   add_run_options(cmd, st->opt);
@@ -69,8 +70,10 @@ void add_crosscheck(CLI::App& app, Action& action) {
       if (!st->quiet && !json_stdout) out << report::crosscheck_text(r);
       if (!st->json.empty()) {
         const std::string json = report::to_json(a, r);
-        if (json_stdout) out << json;
-        else io::write_file_atomically(st->json, json, st->force);
+        if (json_stdout)
+          out << json;
+        else
+          io::write_file_atomically(st->json, json, st->force);
       }
       return r.agrees ? kExitOk : kExitFailed;
     };

@@ -2,13 +2,13 @@
 // Locating an indicator's colour change on a titration curve; indicator error, span and verdict.
 #include "veq/indicators/colour_change.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
+#include <boost/math/tools/toms748_solve.hpp>
 #include <cmath>
 #include <cstdint>
 #include <memory>
-
-#include <boost/math/tools/toms748_solve.hpp>
-#include <fmt/format.h>
 
 namespace veq::indicators {
 namespace {
@@ -18,23 +18,30 @@ namespace {
 constexpr int kRootBits = 40;
 constexpr std::uintmax_t kRootMaxIterations = 100;
 
-const char* past_word(int direction) { return direction >= 0 ? "above" : "below"; }
+const char* past_word(int direction) {
+  return direction >= 0 ? "above" : "below";
+}
 
 }  // namespace
 
 std::string_view to_string(SeenRule rule) {
   switch (rule) {
-    case SeenRule::range_edge: return "range_edge";
-    case SeenRule::pK_plus_minus_one: return "pK_plus_minus_one";
+    case SeenRule::range_edge:
+      return "range_edge";
+    case SeenRule::pK_plus_minus_one:
+      return "pK_plus_minus_one";
   }
   return "range_edge";
 }
 
 std::string_view to_string(Verdict verdict) {
   switch (verdict) {
-    case Verdict::suitable: return "suitable";
-    case Verdict::usable_with_correction: return "usable_with_correction";
-    case Verdict::unsuitable: return "unsuitable";
+    case Verdict::suitable:
+      return "suitable";
+    case Verdict::usable_with_correction:
+      return "usable_with_correction";
+    case Verdict::unsuitable:
+      return "unsuitable";
   }
   return "unsuitable";
 }
@@ -55,7 +62,9 @@ std::vector<std::string> IndicatorOptions::validate() const {
   return p;
 }
 
-double base_form_fraction(double pH, double pK_In) { return 1.0 / (1.0 + std::pow(10.0, pK_In - pH)); }
+double base_form_fraction(double pH, double pK_In) {
+  return 1.0 / (1.0 + std::pow(10.0, pK_In - pH));
+}
 
 Transition transition(const Indicator& indicator, int direction, SeenRule rule) {
   const double lo = rule == SeenRule::range_edge ? indicator.low_pH : indicator.pK_In - 1.0;
@@ -175,8 +184,8 @@ ColourChange judge(const Indicator& indicator,
     cc.seen_uncertainty_mL = curve.exact ? 0.0 : (seen.bracket_high_mL - seen.bracket_low_mL) / std::sqrt(12.0);
     if (positive_eq) {
       cc.error_percent = 100.0 * (*seen.volume_mL - equivalence_mL) / equivalence_mL;
-      cc.error_uncertainty_percent = 100.0 * std::hypot(*cc.seen_uncertainty_mL, equivalence_uncertainty_mL) /
-                                     equivalence_mL;
+      cc.error_uncertainty_percent =
+          100.0 * std::hypot(*cc.seen_uncertainty_mL, equivalence_uncertainty_mL) / equivalence_mL;
       cc.correction_mL = equivalence_mL - *seen.volume_mL;
     } else {
       notes.push_back("the equivalence volume is not positive, so there is no indicator error");
@@ -185,17 +194,19 @@ ColourChange judge(const Indicator& indicator,
     const double first = curve.pH_at_mL(curve.knots_mL.front());
     const double last = curve.pH_at_mL(curve.knots_mL.back());
     if (seen.status == CrossingStatus::past_at_start) {
-      notes.push_back(fmt::format("the run starts at pH {:.2f}, already {} pH {:.1f}: the colour change was seen "
-                                  "before the first reading",
-                                  first,
-                                  past_word(dir),
-                                  t.seen_pH));
+      notes.push_back(
+          fmt::format("the run starts at pH {:.2f}, already {} pH {:.1f}: the colour change was seen "
+                      "before the first reading",
+                      first,
+                      past_word(dir),
+                      t.seen_pH));
     } else {
-      notes.push_back(fmt::format("the run never gets {} pH {:.1f} (it ends at pH {:.2f}): the colour change "
-                                  "is not seen",
-                                  past_word(dir),
-                                  t.seen_pH,
-                                  last));
+      notes.push_back(
+          fmt::format("the run never gets {} pH {:.1f} (it ends at pH {:.2f}): the colour change "
+                      "is not seen",
+                      past_word(dir),
+                      t.seen_pH,
+                      last));
     }
   } else {
     notes.push_back("the curve has no readings");
@@ -206,12 +217,13 @@ ColourChange judge(const Indicator& indicator,
     cc.span_mL = std::max(0.0, *cc.end_mL - *cc.begin_mL);
     cc.span_drops = *cc.span_mL / options.drop_volume_mL;
   } else if (cc.seen_mL && end.status == CrossingStatus::not_reached) {
-    notes.push_back(fmt::format("the change is not complete by the end of the run (pH {:.1f} not reached), so its "
-                                "span is not known",
-                                t.end_pH));
+    notes.push_back(
+        fmt::format("the change is not complete by the end of the run (pH {:.1f} not reached), so its "
+                    "span is not known",
+                    t.end_pH));
   } else if (cc.seen_mL && begin.status == CrossingStatus::past_at_start) {
-    notes.push_back(fmt::format("the change had begun before the first reading (pH {:.1f}), so its span is not known",
-                                t.begin_pH));
+    notes.push_back(
+        fmt::format("the change had begun before the first reading (pH {:.1f}), so its span is not known", t.begin_pH));
   }
 
   if (cc.error_percent) {
@@ -225,14 +237,15 @@ ColourChange judge(const Indicator& indicator,
     } else {
       cc.verdict = Verdict::unsuitable;
       if (err <= options.max_correctable_error_percent && cc.span_mL) {
-        notes.push_back(fmt::format("its colour change is too gradual for a fixed correction ({:.1f} drops)",
-                                    *cc.span_drops));
+        notes.push_back(
+            fmt::format("its colour change is too gradual for a fixed correction ({:.1f} drops)", *cc.span_drops));
       }
     }
     if (*cc.error_uncertainty_percent > cc.tolerance_percent) {
-      notes.push_back(fmt::format("the readings resolve the error only to ±{:.2f} %, more than the tolerance; finer "
-                                  "dosing near the endpoint would settle the verdict",
-                                  *cc.error_uncertainty_percent));
+      notes.push_back(
+          fmt::format("the readings resolve the error only to ±{:.2f} %, more than the tolerance; finer "
+                      "dosing near the endpoint would settle the verdict",
+                      *cc.error_uncertainty_percent));
     }
   }
   for (const auto& n : notes) cc.note += (cc.note.empty() ? "" : "; ") + n;

@@ -2,17 +2,20 @@
 // The manual cross-check: prediction from the run, scaling to the manual sample, tolerance and likely cause.
 #include "veq/indicators/crosscheck.hpp"
 
-#include <cmath>
-
 #include <fmt/format.h>
+
+#include <cmath>
 
 namespace veq::indicators {
 
 std::string_view to_string(LikelyCause cause) {
   switch (cause) {
-    case LikelyCause::none: return "none";
-    case LikelyCause::indicator: return "indicator";
-    case LikelyCause::reading_or_titrant: return "reading_or_titrant";
+    case LikelyCause::none:
+      return "none";
+    case LikelyCause::indicator:
+      return "indicator";
+    case LikelyCause::reading_or_titrant:
+      return "reading_or_titrant";
   }
   return "none";
 }
@@ -69,8 +72,9 @@ CrosscheckResult crosscheck(const Run& run,
     }
     r.scale = *manual.sample_volume_mL / *run.facts.sample_volume_mL;
   } else {
-    r.notes.push_back("no manual sample volume given: the manual titration is taken to be of the same sample size as "
-                      "the run");
+    r.notes.push_back(
+        "no manual sample volume given: the manual titration is taken to be of the same sample size as "
+        "the run");
   }
 
   const PhCurve pc = interpolated_curve(curve);
@@ -109,17 +113,19 @@ CrosscheckResult crosscheck(const Run& run,
     r.endpoint_index = nearest->index;
     r.predicted_equivalence_mL = nearest->volume_mL * r.scale;
     if (r.change->verdict == Verdict::unsuitable && r.change->error_percent) {
-      r.notes.push_back(fmt::format("{} is unsuitable for endpoint {} (indicator error {:+.2f} %): even a perfect "
-                                    "manual titration with it misses the equivalence point",
-                                    ind.name,
-                                    nearest->index,
-                                    *r.change->error_percent));
+      r.notes.push_back(
+          fmt::format("{} is unsuitable for endpoint {} (indicator error {:+.2f} %): even a perfect "
+                      "manual titration with it misses the equivalence point",
+                      ind.name,
+                      nearest->index,
+                      *r.change->error_percent));
     } else if (r.change->verdict == Verdict::usable_with_correction && r.change->correction_mL) {
-      r.notes.push_back(fmt::format("{} needs a correction at endpoint {}: add {:+.3f} mL to a manual titre of this "
-                                    "sample size to reach the equivalence point",
-                                    ind.name,
-                                    nearest->index,
-                                    *r.change->correction_mL * r.scale));
+      r.notes.push_back(
+          fmt::format("{} needs a correction at endpoint {}: add {:+.3f} mL to a manual titre of this "
+                      "sample size to reach the equivalence point",
+                      ind.name,
+                      nearest->index,
+                      *r.change->correction_mL * r.scale));
     }
   } else {
     r.notes.push_back("the run has no endpoint, so the indicator error is not known");
@@ -131,52 +137,58 @@ CrosscheckResult crosscheck(const Run& run,
   // The comparison allows for the last digit of a volume written in mL to 1e-9.
   r.agrees = std::fabs(r.difference_mL) <= r.tolerance_mL + 1e-9;
 
-  const std::string where = fmt::format("{}'s colour change is seen at {:.2f} mL for this sample", ind.name, r.predicted_mL);
+  const std::string where =
+      fmt::format("{}'s colour change is seen at {:.2f} mL for this sample", ind.name, r.predicted_mL);
   if (r.agrees) {
     r.likely_cause = LikelyCause::none;
     r.statement = "agrees";
-    r.explanation = fmt::format("{}; the manual {:.2f} mL lies within ±{:.2f} mL of it (burette ±{:.2f} mL plus one "
-                                "drop of {:.2f} mL)",
-                                where,
-                                r.manual_volume_mL,
-                                r.tolerance_mL,
-                                r.burette_tolerance_mL,
-                                r.drop_volume_mL);
+    r.explanation = fmt::format(
+        "{}; the manual {:.2f} mL lies within ±{:.2f} mL of it (burette ±{:.2f} mL plus one "
+        "drop of {:.2f} mL)",
+        where,
+        r.manual_volume_mL,
+        r.tolerance_mL,
+        r.burette_tolerance_mL,
+        r.drop_volume_mL);
     return r;
   }
-  r.statement = fmt::format("disagrees by {:.2f} mL ({:.2f} %)", std::fabs(r.difference_mL), std::fabs(r.difference_percent));
+  r.statement =
+      fmt::format("disagrees by {:.2f} mL ({:.2f} %)", std::fabs(r.difference_mL), std::fabs(r.difference_percent));
   const char* higher = r.difference_mL > 0 ? "higher" : "lower";
   const bool whole_change = r.run_begin_mL && r.run_end_mL;
   const double change_lo = (whole_change ? *r.run_begin_mL * r.scale : r.predicted_mL) - r.tolerance_mL;
   const double change_hi = (whole_change ? *r.run_end_mL * r.scale : r.predicted_mL) + r.tolerance_mL;
   const bool within_change = whole_change && r.manual_volume_mL >= change_lo && r.manual_volume_mL <= change_hi;
-  const std::string change_text =
-      whole_change ? fmt::format("the whole change runs from {:.2f} to {:.2f} mL", *r.run_begin_mL * r.scale,
-                                 *r.run_end_mL * r.scale)
-                   : std::string("the whole change is not within the run");
+  const std::string change_text = whole_change ? fmt::format("the whole change runs from {:.2f} to {:.2f} mL",
+                                                             *r.run_begin_mL * r.scale,
+                                                             *r.run_end_mL * r.scale)
+                                               : std::string("the whole change is not within the run");
   const bool at_equivalence =
       r.predicted_equivalence_mL && std::fabs(r.manual_volume_mL - *r.predicted_equivalence_mL) <= r.tolerance_mL;
   if (within_change) {
     r.likely_cause = LikelyCause::indicator;
-    r.explanation = fmt::format("{}; {}, and the manual result is {} but within it: the colour was probably judged at "
-                                "another stage of the change",
-                                where,
-                                change_text,
-                                higher);
+    r.explanation = fmt::format(
+        "{}; {}, and the manual result is {} but within it: the colour was probably judged at "
+        "another stage of the change",
+        where,
+        change_text,
+        higher);
   } else if (at_equivalence) {
     r.likely_cause = LikelyCause::indicator;
-    r.explanation = fmt::format("{}, but the manual result lies at the equivalence point ({:.2f} mL): the difference "
-                                "is this indicator's error, so the colour was read elsewhere than its table range "
-                                "predicts",
-                                where,
-                                *r.predicted_equivalence_mL);
+    r.explanation = fmt::format(
+        "{}, but the manual result lies at the equivalence point ({:.2f} mL): the difference "
+        "is this indicator's error, so the colour was read elsewhere than its table range "
+        "predicts",
+        where,
+        *r.predicted_equivalence_mL);
   } else {
     r.likely_cause = LikelyCause::reading_or_titrant;
-    r.explanation = fmt::format("{}; {}, and the manual result is {} and outside it, which the indicator does not "
-                                "explain: check the burette reading, the sample volume and the titrant concentration",
-                                where,
-                                change_text,
-                                higher);
+    r.explanation = fmt::format(
+        "{}; {}, and the manual result is {} and outside it, which the indicator does not "
+        "explain: check the burette reading, the sample volume and the titrant concentration",
+        where,
+        change_text,
+        higher);
   }
   return r;
 }

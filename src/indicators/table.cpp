@@ -2,13 +2,13 @@
 // Parsing the indicator table and looking rows up by name.
 #include "veq/indicators/table.hpp"
 
+#include <fast_float/fast_float.h>
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <array>
 #include <cmath>
 #include <set>
-
-#include <fast_float/fast_float.h>
-#include <fmt/format.h>
 
 #include "data/embedded.hpp"
 #include "veq/core/error.hpp"
@@ -16,16 +16,8 @@
 namespace veq::indicators {
 namespace {
 
-constexpr std::array<std::string_view, 10> kColumns = {"name",
-                                                       "aliases",
-                                                       "low_pH",
-                                                       "high_pH",
-                                                       "pK_In",
-                                                       "acid_colour",
-                                                       "acid_sRGB",
-                                                       "base_colour",
-                                                       "base_sRGB",
-                                                       "source"};
+constexpr std::array<std::string_view, 10> kColumns = {
+    "name", "aliases", "low_pH", "high_pH", "pK_In", "acid_colour", "acid_sRGB", "base_colour", "base_sRGB", "source"};
 
 // The table's pH values must lie here; anything else is a typing error [pH].
 constexpr double kMinTablePH = -1.0;
@@ -120,8 +112,10 @@ std::string describe(const Indicator& row) {
 std::string normalise_name(std::string_view name) {
   std::string out;
   for (char c : name) {
-    if (c >= 'A' && c <= 'Z') out.push_back(static_cast<char>(c - 'A' + 'a'));
-    else if ((c >= 'a' && c <= 'z') || (c >= '0' && c <= '9')) out.push_back(c);
+    if (c >= 'A' && c <= 'Z')
+      out.push_back(static_cast<char>(c - 'A' + 'a'));
+    else if ((c >= 'a' && c <= 'z') || (c >= '0' && c <= '9'))
+      out.push_back(c);
   }
   return out;
 }
@@ -186,7 +180,8 @@ IndicatorTable IndicatorTable::parse(std::string_view tsv, const std::string& so
     }
     table.m_rows.push_back(std::move(row));
   }
-  if (!header_seen) throw InputError({source_name, 0, 0}, "no header line", "the first non-comment line names the columns");
+  if (!header_seen)
+    throw InputError({source_name, 0, 0}, "no header line", "the first non-comment line names the columns");
   if (table.m_rows.empty()) throw InputError({source_name, 0, 0}, "the table has no rows");
   return table;
 }

@@ -2,9 +2,8 @@
 // The indicator parts of the run reports, kept apart so that json.cpp and text.cpp need one call each.
 #pragma once
 
-#include <string>
-
 #include <nlohmann/json.hpp>
+#include <string>
 
 #include "veq/analyze.hpp"
 

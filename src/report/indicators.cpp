@@ -2,9 +2,9 @@
 // Indicator results in the run reports, the indicator table listing and the cross-check report.
 #include "veq/report/indicators.hpp"
 
-#include <cmath>
-
 #include <fmt/format.h>
+
+#include <cmath>
 
 #include "report/indicator_sections.hpp"
 #include "veq/report/json.hpp"
@@ -71,9 +71,12 @@ const indicators::EndpointIndicators* find_endpoint(const Analysis& a, int index
 
 std::string verdict_words(indicators::Verdict v) {
   switch (v) {
-    case indicators::Verdict::suitable: return "suitable";
-    case indicators::Verdict::usable_with_correction: return "usable with a correction";
-    case indicators::Verdict::unsuitable: return "unsuitable";
+    case indicators::Verdict::suitable:
+      return "suitable";
+    case indicators::Verdict::usable_with_correction:
+      return "usable with a correction";
+    case indicators::Verdict::unsuitable:
+      return "unsuitable";
   }
   return "unsuitable";
 }
@@ -82,12 +85,14 @@ std::string short_change(const indicators::ColourChange& c) {
   std::string s = c.indicator.name + " " + verdict_words(c.verdict);
   if (c.error_percent) {
     s += fmt::format(" ({:+.2f} ± {:.2f} %)", *c.error_percent, c.error_uncertainty_percent.value_or(0.0));
-  }
-  else s += " (not seen)";
+  } else
+    s += " (not seen)";
   return s;
 }
 
-std::string range_text(const indicators::Indicator& i) { return fmt::format("{:.1f}-{:.1f}", i.low_pH, i.high_pH); }
+std::string range_text(const indicators::Indicator& i) {
+  return fmt::format("{:.1f}-{:.1f}", i.low_pH, i.high_pH);
+}
 
 }  // namespace
 
@@ -107,8 +112,8 @@ void add_endpoint_indicators(ordered_json& ej, const Analysis& a, int endpoint_i
 std::string endpoint_indicators_line(const Analysis& a, int endpoint_index) {
   const auto* e = find_endpoint(a, endpoint_index);
   if (e == nullptr || !e->endpoint_pH) return {};
-  constexpr std::size_t kShown = 2;     // candidates named on the line
-  constexpr std::size_t kAlsoShown = 3; // other suitable indicators named
+  constexpr std::size_t kShown = 2;      // candidates named on the line
+  constexpr std::size_t kAlsoShown = 3;  // other suitable indicators named
   std::string line = "    Indicators: ";
   if (e->candidates.empty()) {
     line += fmt::format("none in the table changes colour at pH {:.2f}", *e->endpoint_pH);
@@ -149,20 +154,31 @@ std::string indicator_table_text(const std::vector<const indicators::Indicator*>
     colour_width = std::max(colour_width, colours(*r).size());
   }
   if (!rows.empty()) {
-    out += fmt::format("  {:<{}}  {:<9}  {:>6}  {:<{}}", "Indicator", width, "pH range", "pK(In)", "acid -> base colour",
+    out += fmt::format("  {:<{}}  {:<9}  {:>6}  {:<{}}",
+                       "Indicator",
+                       width,
+                       "pH range",
+                       "pK(In)",
+                       "acid -> base colour",
                        pH ? colour_width : 0);
     if (pH) out += "  |mid - pH|";
     out += "\n";
   }
   for (const auto* r : rows) {
-    out += fmt::format("  {:<{}}  {:<9}  {:>6.2f}  {:<{}}", r->name, width, range_text(*r), r->pK_In, colours(*r),
+    out += fmt::format("  {:<{}}  {:<9}  {:>6.2f}  {:<{}}",
+                       r->name,
+                       width,
+                       range_text(*r),
+                       r->pK_In,
+                       colours(*r),
                        pH ? colour_width : 0);
     if (pH) out += fmt::format("  {:>10.2f}", std::fabs(r->midpoint_pH() - *pH));
     out += "\n";
     if (with_sources) out += fmt::format("  {:<{}}  source: {}\n", "", width, r->source);
   }
-  out += "Ranges are the observed colour changes (sources differ by 0.2-0.4 pH); the change is first seen at the edge "
-         "the titration reaches first. pK(In) values spread between sources and are informative only.\n";
+  out +=
+      "Ranges are the observed colour changes (sources differ by 0.2-0.4 pH); the change is first seen at the edge "
+      "the titration reaches first. pK(In) values spread between sources and are informative only.\n";
   out += std::string(safety_caution()) + "\n";
   return out;
 }

@@ -79,18 +79,18 @@ struct PhCurve {
 // the change is seen where it begins; for a one-colour indicator whose colour
 // vanishes (phenolphthalein titrated with an acid), where it ends.
 struct Transition {
-  double begin_pH = 0.0;  // [pH]
-  double end_pH = 0.0;    // [pH]
-  double seen_pH = 0.0;   // [pH]; equals begin_pH or end_pH
+  double begin_pH = 0.0;     // [pH]
+  double end_pH = 0.0;       // [pH]
+  double seen_pH = 0.0;      // [pH]; equals begin_pH or end_pH
   bool seen_at_end = false;  // true when the change is seen as the colour vanishing
 };
 [[nodiscard]] Transition transition(const Indicator& indicator, int direction, SeenRule rule);
 
 // Where a curve passes a pH in its direction.
 enum class CrossingStatus {
-  found,        // volume_mL holds the crossing
-  past_at_start, // the curve is already at or past the pH at its first volume
-  not_reached,  // the curve ends before reaching the pH
+  found,          // volume_mL holds the crossing
+  past_at_start,  // the curve is already at or past the pH at its first volume
+  not_reached,    // the curve ends before reaching the pH
 };
 
 struct Crossing {
@@ -109,20 +109,20 @@ struct Crossing {
 // One indicator judged against one equivalence point.
 struct ColourChange {
   Indicator indicator;
-  Transition transition;                  // pH where the change begins, ends and is seen
-  std::optional<double> seen_mL;          // V_seen [mL]
-  std::optional<double> seen_uncertainty_mL;  // standard uncertainty of V_seen from the readings [mL]
-  std::optional<double> begin_mL;         // where the change begins [mL]
-  std::optional<double> end_mL;           // where it ends [mL]
-  double equivalence_mL = 0.0;            // V_eq it is judged against [mL]
-  std::optional<double> error_percent;    // (V_seen - V_eq) / V_eq * 100 [%]
+  Transition transition;                            // pH where the change begins, ends and is seen
+  std::optional<double> seen_mL;                    // V_seen [mL]
+  std::optional<double> seen_uncertainty_mL;        // standard uncertainty of V_seen from the readings [mL]
+  std::optional<double> begin_mL;                   // where the change begins [mL]
+  std::optional<double> end_mL;                     // where it ends [mL]
+  double equivalence_mL = 0.0;                      // V_eq it is judged against [mL]
+  std::optional<double> error_percent;              // (V_seen - V_eq) / V_eq * 100 [%]
   std::optional<double> error_uncertainty_percent;  // from u(V_seen) and u(V_eq) [%]
-  std::optional<double> correction_mL;    // V_eq - V_seen: add to a titre read with this indicator [mL]
-  std::optional<double> span_mL;          // end_mL - begin_mL: the whole colour change [mL]
-  std::optional<double> span_drops;       // span_mL / drop volume [drops]
-  double tolerance_percent = 0.0;         // the suitability tolerance used [% of V_eq]
+  std::optional<double> correction_mL;              // V_eq - V_seen: add to a titre read with this indicator [mL]
+  std::optional<double> span_mL;                    // end_mL - begin_mL: the whole colour change [mL]
+  std::optional<double> span_drops;                 // span_mL / drop volume [drops]
+  double tolerance_percent = 0.0;                   // the suitability tolerance used [% of V_eq]
   Verdict verdict = Verdict::unsuitable;
-  std::string note;                       // why a number is missing or what limits the verdict; may be empty
+  std::string note;  // why a number is missing or what limits the verdict; may be empty
 };
 
 // Judges indicator against the equivalence volume equivalence_mL [mL] (with
@@ -146,7 +146,7 @@ struct EndpointIndicators {
 };
 
 struct IndicatorResult {
-  std::string curve_method;                // "interpolated" or "model"; empty when nothing was judged
+  std::string curve_method;                   // "interpolated" or "model"; empty when nothing was judged
   std::vector<EndpointIndicators> endpoints;  // one per endpoint, in endpoint order
   std::vector<Diagnostic> warnings;
 };

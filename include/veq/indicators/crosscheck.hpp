@@ -30,9 +30,9 @@ struct CrosscheckOptions {
 
 // What the manual titration gave.
 struct ManualTitration {
-  std::string indicator;                          // indicator name as typed (see IndicatorTable::find)
-  double volume_mL = 0.0;                         // titrant used to the colour change [mL]
-  std::optional<double> sample_volume_mL;         // its sample [mL]; empty: the run's sample size
+  std::string indicator;                   // indicator name as typed (see IndicatorTable::find)
+  double volume_mL = 0.0;                  // titrant used to the colour change [mL]
+  std::optional<double> sample_volume_mL;  // its sample [mL]; empty: the run's sample size
 };
 
 // Why a manual result disagrees, as far as one result can tell.
@@ -45,27 +45,27 @@ enum class LikelyCause {
 
 struct CrosscheckResult {
   Indicator indicator;
-  double manual_volume_mL = 0.0;                 // [mL]
-  std::optional<double> manual_sample_volume_mL; // [mL]
-  std::optional<double> run_sample_volume_mL;    // [mL]
-  double scale = 1.0;                            // manual sample / run sample [-]; 1 when not given
-  double run_seen_mL = 0.0;                      // where the colour change is seen in the run [mL]
-  std::optional<double> run_begin_mL;            // where the whole change begins in the run [mL]
-  std::optional<double> run_end_mL;              // and where it ends [mL]
-  double predicted_mL = 0.0;                     // run_seen_mL * scale [mL]
-  double difference_mL = 0.0;                    // manual - predicted [mL]
-  double difference_percent = 0.0;               // 100 * difference / predicted [%]
-  double tolerance_mL = 0.0;                     // burette tolerance + one drop [mL]
-  double burette_tolerance_mL = 0.0;             // [mL]
-  double drop_volume_mL = 0.0;                   // [mL]
-  bool agrees = false;                           // |difference| <= tolerance
+  double manual_volume_mL = 0.0;                  // [mL]
+  std::optional<double> manual_sample_volume_mL;  // [mL]
+  std::optional<double> run_sample_volume_mL;     // [mL]
+  double scale = 1.0;                             // manual sample / run sample [-]; 1 when not given
+  double run_seen_mL = 0.0;                       // where the colour change is seen in the run [mL]
+  std::optional<double> run_begin_mL;             // where the whole change begins in the run [mL]
+  std::optional<double> run_end_mL;               // and where it ends [mL]
+  double predicted_mL = 0.0;                      // run_seen_mL * scale [mL]
+  double difference_mL = 0.0;                     // manual - predicted [mL]
+  double difference_percent = 0.0;                // 100 * difference / predicted [%]
+  double tolerance_mL = 0.0;                      // burette tolerance + one drop [mL]
+  double burette_tolerance_mL = 0.0;              // [mL]
+  double drop_volume_mL = 0.0;                    // [mL]
+  bool agrees = false;                            // |difference| <= tolerance
   LikelyCause likely_cause = LikelyCause::none;
-  std::optional<ColourChange> change;            // the indicator judged against the nearest endpoint
-  std::optional<int> endpoint_index;             // that endpoint (1-based)
-  std::optional<double> predicted_equivalence_mL; // its volume scaled to the manual sample [mL]
-  std::string statement;                         // "agrees" or "disagrees by X mL (Y %)"
-  std::string explanation;                       // one or two sentences on the cause
-  std::vector<std::string> notes;                // assumptions made (same sample size, ...)
+  std::optional<ColourChange> change;              // the indicator judged against the nearest endpoint
+  std::optional<int> endpoint_index;               // that endpoint (1-based)
+  std::optional<double> predicted_equivalence_mL;  // its volume scaled to the manual sample [mL]
+  std::string statement;                           // "agrees" or "disagrees by X mL (Y %)"
+  std::string explanation;                         // one or two sentences on the cause
+  std::vector<std::string> notes;                  // assumptions made (same sample size, ...)
 };
 
 // Predicts from a measured curve (run: its source and facts) where the named indicator's colour change
