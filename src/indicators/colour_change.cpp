@@ -92,6 +92,7 @@ PhCurve interpolated_curve(const Curve& curve) {
   }
   PhCurve c;
   c.knots_mL = *v;
+  c.knots_pH = *y;
   c.direction = curve.direction >= 0 ? +1 : -1;
   c.method = "interpolated";
   c.exact = false;
@@ -117,8 +118,9 @@ Crossing find_crossing(const PhCurve& curve, double target_pH) {
   // violation, not worth a NaN in a report).
   std::vector<std::size_t> usable;
   std::vector<double> s;
+  const bool cached = curve.knots_pH.size() == k.size();
   for (std::size_t i = 0; i < k.size(); ++i) {
-    const double si = side(k[i]);
+    const double si = cached ? dir * (curve.knots_pH[i] - target_pH) : side(k[i]);
     if (!std::isfinite(si)) continue;
     usable.push_back(i);
     s.push_back(si);

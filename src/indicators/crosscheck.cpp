@@ -132,6 +132,16 @@ CrosscheckResult crosscheck(const Run& run,
   }
 
   r.predicted_mL = r.run_seen_mL * r.scale;
+  // Where between its two bracketing readings the crossing lies is unknown (DEVELOPERS.md, Visual
+  // indicators): rectangular, (b - a)/sqrt(12), scaled with the sample.
+  r.prediction_uncertainty_mL = r.scale * (seen.bracket_high_mL - seen.bracket_low_mL) / std::sqrt(12.0);
+  if (r.prediction_uncertainty_mL > 0.5 * r.tolerance_mL) {
+    r.notes.push_back(
+        fmt::format("the run's readings place the colour change only to ±{:.3f} mL at this sample "
+                    "size, a large part of the tolerance; finer dosing near the endpoint would sharpen "
+                    "the check",
+                    r.prediction_uncertainty_mL));
+  }
   r.difference_mL = r.manual_volume_mL - r.predicted_mL;
   r.difference_percent = 100.0 * r.difference_mL / r.predicted_mL;
   // The comparison allows for the last digit of a volume written in mL to 1e-9.

@@ -204,7 +204,8 @@ std::string crosscheck_text(const indicators::CrosscheckResult& r) {
     if (c.span_drops) out += fmt::format("; the change spans {:.3f} mL ({:.1f} drops)", *c.span_mL, *c.span_drops);
     out += "\n";
   }
-  out += fmt::format("  Predicted for the manual sample: {:.2f} mL", r.predicted_mL);
+  out +=
+      fmt::format("  Predicted for the manual sample: {:.2f} ± {:.2f} mL", r.predicted_mL, r.prediction_uncertainty_mL);
   if (r.scale != 1.0) out += fmt::format(" (run x {:.4g})", r.scale);
   out += "\n";
   const bool class_a = std::fabs(r.burette_tolerance_mL - indicators::kClassA50mLBuretteTolerance_mL) < 1e-12;
@@ -239,6 +240,7 @@ std::string to_json(const Analysis& analysis, const indicators::CrosscheckResult
   c["run_seen_mL"] = number(r.run_seen_mL, kVolumeDecimals);
   c["run_change_mL"] = {number(r.run_begin_mL, kVolumeDecimals), number(r.run_end_mL, kVolumeDecimals)};
   c["predicted_mL"] = number(r.predicted_mL, kVolumeDecimals);
+  c["prediction_uncertainty_mL"] = number(r.prediction_uncertainty_mL, kVolumeDecimals);
   c["difference_mL"] = number(r.difference_mL, kVolumeDecimals);
   c["difference_percent"] = number(r.difference_percent, kPercentDecimals);
   c["tolerance_mL"] = number(r.tolerance_mL, kVolumeDecimals);

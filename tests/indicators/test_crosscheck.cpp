@@ -144,6 +144,8 @@ TEST_CASE("crosscheck --json - adds a crosscheck object to the run's JSON", "[in
   CHECK(c["scale"].get<double>() == veq::test::close(2.5, 1e-12));
   CHECK(c["tolerance_mL"].get<double>() == veq::test::close(0.10, 1e-9));
   CHECK(std::fabs(c["predicted_mL"].get<double>() - model_prediction_25mL()) <= 0.025);
+  // Readings 0.01 mL apart bracket the crossing: u = 2.5 x 0.01 / sqrt(12) (rectangular; JCGM 100:2008 4.3.7).
+  CHECK(c["prediction_uncertainty_mL"].get<double>() == veq::test::close(2.5 * 0.01 / std::sqrt(12.0), 1e-4));
   CHECK(c["verdict"] == "suitable");
   // The run's endpoint carries its indicators with the documented fields.
   const auto& inds = j["endpoints"][0]["indicators"];

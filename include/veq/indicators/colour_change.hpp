@@ -59,6 +59,7 @@ struct IndicatorOptions {
 struct PhCurve {
   std::function<double(double)> pH_at_mL;  // pH at a titrant volume [mL] -> [pH]
   std::vector<double> knots_mL;            // ascending volumes [mL]
+  std::vector<double> knots_pH;            // pH_at_mL at each knot when precomputed (same size), else empty [pH]
   int direction = +1;                      // +1: pH rises with volume (base titrant); -1: falls (acid titrant)
   std::string method;                      // "interpolated" or "model": reported with the results
   // false for readings: a crossing is only known to lie between the two

@@ -53,6 +53,7 @@ struct CrosscheckResult {
   std::optional<double> run_begin_mL;             // where the whole change begins in the run [mL]
   std::optional<double> run_end_mL;               // and where it ends [mL]
   double predicted_mL = 0.0;                      // run_seen_mL * scale [mL]
+  double prediction_uncertainty_mL = 0.0;         // standard uncertainty of predicted_mL from the readings [mL]
   double difference_mL = 0.0;                     // manual - predicted [mL]
   double difference_percent = 0.0;                // 100 * difference / predicted [%]
   double tolerance_mL = 0.0;                      // burette tolerance + one drop [mL]
