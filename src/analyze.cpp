@@ -1,5 +1,5 @@
 // SPDX-License-Identifier: MIT
-// The pipeline for one run: prepare, endpoints (later stages join here).
+// The pipeline for one run: prepare, derivative endpoints, Gran and consensus, indicators.
 #include "veq/analyze.hpp"
 
 namespace veq {
@@ -8,6 +8,7 @@ std::vector<std::string> AnalyzeOptions::validate() const {
   std::vector<std::string> all = prepare.validate();
   for (auto& p : endpoints.validate()) all.push_back(std::move(p));
   for (auto& p : gran.validate()) all.push_back(std::move(p));
+  for (auto& p : indicators.validate()) all.push_back(std::move(p));
   return all;
 }
 
@@ -37,6 +38,9 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
     if (c.disagree) e.flags.emplace_back(signal::kFlagMethodsDisagree);
     if ((g.before && !g.before->linear) || (g.after && !g.after->linear)) e.flags.emplace_back(signal::kFlagGranNonlinear);
   }
+  // Indicators judge the consensus endpoint volumes.
+  a.indicators = indicators::assess(a.curve, a.endpoints, options.indicators);
+  a.warnings.insert(a.warnings.end(), a.indicators.warnings.begin(), a.indicators.warnings.end());
   a.run = std::move(run);
   return a;
 }

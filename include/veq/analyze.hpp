@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "veq/core/run.hpp"
+#include "veq/indicators/colour_change.hpp"
 #include "veq/signal/endpoints.hpp"
 #include "veq/signal/gran.hpp"
 #include "veq/signal/prepare.hpp"
@@ -16,6 +17,7 @@ struct AnalyzeOptions {
   signal::PrepareOptions prepare;
   signal::EndpointOptions endpoints;
   signal::GranOptions gran;
+  indicators::IndicatorOptions indicators;
 
   // Problems of all the stage options, one line each; empty when valid.
   [[nodiscard]] std::vector<std::string> validate() const;
@@ -27,11 +29,12 @@ struct Analysis {
   Curve curve;
   signal::EndpointResult endpoints;  // volume_mL of each is the consensus of its methods
   std::vector<signal::GranEndpoint> gran;  // one per endpoint (empty branches when skipped)
-  std::vector<Diagnostic> warnings;  // run, curve and endpoint warnings, in that order
+  indicators::IndicatorResult indicators;  // per endpoint: indicators that change colour there
+  std::vector<Diagnostic> warnings;  // run, curve, endpoint, Gran and indicator warnings, in that order
 };
 
-// Runs prepare, derivative endpoints, Gran and the consensus on a run read by
-// ingest. Never throws
+// Runs prepare, derivative endpoints, Gran, the consensus and the indicator
+// check on a run read by ingest. Never throws
 // for curve content (no endpoint is a warning); throws InputError only for
 // invalid options.
 [[nodiscard]] Analysis analyze(Run run, const AnalyzeOptions& options = {});

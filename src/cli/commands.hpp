@@ -14,5 +14,7 @@ using Action = std::function<int(std::ostream& out, std::ostream& err)>;
 
 // Each adds its subcommand to app and stores what to run in action.
 void add_analyze(CLI::App& app, Action& action);
+void add_indicators(CLI::App& app, Action& action);
+void add_crosscheck(CLI::App& app, Action& action);
 
 }  // namespace veq::cli

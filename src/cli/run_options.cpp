@@ -47,6 +47,9 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
       ->group(endpoints);
   cmd->add_option("--gran-window", o.gran_window, "Fit the Gran line only to readings in FROM:TO mL (default: chosen by the linearity rule)")
       ->group(endpoints);
+  cmd->add_option("--drop-volume", o.drop_volume_mL, "Volume of one drop from the burette [mL] (default 0.05)")
+      ->group("Indicators")
+      ->check(CLI::Range(0.001, 1.0));
 }
 
 ingest::IngestOptions ingest_options(const RunOptions& o) {
@@ -94,6 +97,7 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
     }
     ao.gran.window_mL = std::make_pair(from, to);
   }
+  if (o.drop_volume_mL) ao.indicators.drop_volume_mL = *o.drop_volume_mL;
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   return ao;
 }

@@ -29,6 +29,7 @@ struct RunOptions {
   std::optional<double> min_height;
   std::optional<double> min_separation_mL;
   std::string gran_window;  // "from:to" [mL]
+  std::optional<double> drop_volume_mL;  // --drop-volume: one drop from the burette [mL]
 };
 
 // Adds the shared options to a subcommand.

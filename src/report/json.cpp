@@ -7,6 +7,8 @@
 
 #include <nlohmann/json.hpp>
 
+#include "report/indicator_sections.hpp"
+
 namespace veq::report {
 namespace {
 
@@ -160,6 +162,7 @@ std::string to_json(const Analysis& a) {
     ej["peak_slope"] = significant(e.peak_slope, 6);
     ej["snr"] = significant(e.snr, 3);
     ej["flags"] = e.flags;
+    detail::add_endpoint_indicators(ej, a, e.index);
     eps.push_back(ej);
   }
   j["endpoints"] = eps;

@@ -7,6 +7,8 @@
 
 #include <fmt/format.h>
 
+#include "report/indicator_sections.hpp"
+
 namespace veq::report {
 namespace {
 
@@ -73,11 +75,13 @@ std::string to_text(const Analysis& a) {
         out += "      consensus of " + m + "\n";
       }
     }
+    out += detail::endpoint_indicators_line(a, e.index);
   }
   if (!a.warnings.empty()) {
     out += "  Warnings:\n";
     for (const auto& w : a.warnings) out += "    " + to_string(w) + "\n";
   }
+  out += std::string("  ") + safety_caution() + "\n";
   return out;
 }
 
