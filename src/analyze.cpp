@@ -1,5 +1,5 @@
 // SPDX-License-Identifier: MIT
-// The pipeline for one run: prepare, derivative endpoints, Gran and consensus, indicators.
+// The pipeline for one run: prepare, derivative endpoints, Gran and consensus, indicators, results.
 #include "veq/analyze.hpp"
 
 namespace veq {
@@ -41,6 +41,18 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
   // Indicators judge the consensus endpoint volumes.
   a.indicators = indicators::assess(a.curve, a.endpoints, options.indicators);
   a.warnings.insert(a.warnings.end(), a.indicators.warnings.begin(), a.indicators.warnings.end());
+  if (options.method) {
+    // A method the run cannot satisfy fails the results, never the endpoints.
+    try {
+      a.results = method::compute_results(*options.method, run, a.curve, a.endpoints.endpoints, a.gran);
+      for (const auto& f : a.results->acceptance_failures) {
+        a.warnings.push_back({"acceptance", "method acceptance: " + f, {run.source, 0, 0}});
+      }
+    } catch (const InputError& e) {
+      a.results_error = e.what();
+      a.warnings.push_back({"result_failed", std::string("no result: ") + e.what(), {run.source, 0, 0}});
+    }
+  }
   a.run = std::move(run);
   return a;
 }

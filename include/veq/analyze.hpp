@@ -2,11 +2,14 @@
 // The whole pipeline for one run: the one entry point every front end calls.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
 #include "veq/core/run.hpp"
 #include "veq/indicators/colour_change.hpp"
+#include "veq/method/method.hpp"
+#include "veq/method/result.hpp"
 #include "veq/signal/endpoints.hpp"
 #include "veq/signal/gran.hpp"
 #include "veq/signal/prepare.hpp"
@@ -18,6 +21,8 @@ struct AnalyzeOptions {
   signal::EndpointOptions endpoints;
   signal::GranOptions gran;
   indicators::IndicatorOptions indicators;
+  // A method turns endpoints into reportable results (none: endpoints only).
+  std::optional<method::Method> method;
 
   // Problems of all the stage options, one line each; empty when valid.
   [[nodiscard]] std::vector<std::string> validate() const;
@@ -30,6 +35,8 @@ struct Analysis {
   signal::EndpointResult endpoints;  // volume_mL of each is the consensus of its methods
   std::vector<signal::GranEndpoint> gran;  // one per endpoint (empty branches when skipped)
   indicators::IndicatorResult indicators;  // per endpoint: indicators that change colour there
+  std::optional<method::ResultSet> results;  // when a method was given
+  std::string results_error;               // why the method's results could not be computed ("" if they were)
   std::vector<Diagnostic> warnings;  // run, curve, endpoint, Gran and indicator warnings, in that order
 };
 

@@ -21,6 +21,7 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
   add_analyze(app, action);
   add_indicators(app, action);
   add_crosscheck(app, action);
+  add_method(app, action);
 
   std::vector<std::string> reversed(args.size() > 1 ? args.begin() + 1 : args.end(), args.end());
   std::reverse(reversed.begin(), reversed.end());

@@ -16,5 +16,6 @@ using Action = std::function<int(std::ostream& out, std::ostream& err)>;
 void add_analyze(CLI::App& app, Action& action);
 void add_indicators(CLI::App& app, Action& action);
 void add_crosscheck(CLI::App& app, Action& action);
+void add_method(CLI::App& app, Action& action);
 
 }  // namespace veq::cli

@@ -12,6 +12,7 @@
 namespace veq::cli {
 
 void add_run_options(CLI::App* cmd, RunOptions& o) {
+  cmd->add_option("--method", o.method_file, "Method file (TOML): turns endpoints into reportable results")->group("Results");
   const char* facts = "Run facts (win over the file's metadata)";
   cmd->add_option("--sample-volume", o.sample_volume_mL, "Sample volume V0 [mL]")->group(facts)->check(CLI::PositiveNumber);
   cmd->add_option("--titrant-conc", o.titrant_conc_mol_L, "Titrant concentration Ct [mol/L]")
@@ -100,6 +101,11 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
   if (o.drop_volume_mL) ao.indicators.drop_volume_mL = *o.drop_volume_mL;
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   return ao;
+}
+
+std::optional<method::Method> load_method_option(const RunOptions& o) {
+  if (o.method_file.empty()) return std::nullopt;
+  return method::load_method(o.method_file);
 }
 
 void apply_facts(const RunOptions& o, Run& run) {

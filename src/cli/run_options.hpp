@@ -9,6 +9,7 @@
 
 #include "veq/analyze.hpp"
 #include "veq/ingest/reader.hpp"
+#include "veq/method/method.hpp"
 
 namespace veq::cli {
 
@@ -29,6 +30,7 @@ struct RunOptions {
   std::optional<double> min_height;
   std::optional<double> min_separation_mL;
   std::string gran_window;  // "from:to" [mL]
+  std::string method_file;  // --method
   std::optional<double> drop_volume_mL;  // --drop-volume: one drop from the burette [mL]
 };
 
@@ -40,6 +42,9 @@ void add_run_options(CLI::App* cmd, RunOptions& o);
 
 // The analysis options these stand for. Throws InputError for a bad value.
 [[nodiscard]] AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C);
+
+// The method named by --method, loaded (nullopt without one). Throws InputError.
+[[nodiscard]] std::optional<method::Method> load_method_option(const RunOptions& o);
 
 // The command line wins over the file's metadata.
 void apply_facts(const RunOptions& o, Run& run);

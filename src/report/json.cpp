@@ -63,6 +63,44 @@ ordered_json gran_json(const signal::GranBranch& b) {
   return g;
 }
 
+ordered_json result_json(const method::Result& r) {
+  ordered_json j;
+  j["name"] = r.name;
+  j["value"] = significant(r.value, 8);
+  j["unit"] = std::string(method::to_string(r.unit));
+  j["uncertainty"] = significant(r.uncertainty, 3);
+  j["expanded_uncertainty"] = significant(r.expanded_uncertainty, 3);
+  j["coverage_factor"] = 2;
+  j["decimals"] = r.decimals;
+  j["formula"] = r.formula;
+  ordered_json spec = ordered_json::object();
+  spec["low"] = r.spec_low ? significant(*r.spec_low, 8) : ordered_json(nullptr);
+  spec["high"] = r.spec_high ? significant(*r.spec_high, 8) : ordered_json(nullptr);
+  spec["verdict"] = r.verdict.empty() ? ordered_json(nullptr) : ordered_json(r.verdict);
+  j["spec"] = spec;
+  ordered_json ep;
+  if (r.at_pH) ep["at_pH"] = number(*r.at_pH, 3);
+  else ep["index"] = r.endpoint_index;
+  ep["volume_mL"] = number(r.endpoint_volume_mL, 6);
+  ep["source"] = r.volume_source;
+  j["endpoint"] = ep;
+  ordered_json budget = ordered_json::array();
+  for (const auto& b : r.budget) {
+    ordered_json bj;
+    bj["input"] = b.name;
+    bj["value"] = significant(b.value, 8);
+    bj["unit"] = b.unit;
+    bj["std_uncertainty"] = significant(b.std_uncertainty, 3);
+    bj["sensitivity"] = significant(b.sensitivity, 6);
+    bj["contribution"] = significant(b.contribution, 3);
+    bj["percent"] = number(b.percent, 2);
+    budget.push_back(bj);
+  }
+  j["budget"] = budget;
+  j["notes"] = r.notes;
+  return j;
+}
+
 std::string separator_name(char sep) {
   switch (sep) {
     case ',': return "comma";
@@ -166,6 +204,31 @@ std::string to_json(const Analysis& a) {
     eps.push_back(ej);
   }
   j["endpoints"] = eps;
+  if (a.results || !a.results_error.empty()) {
+    ordered_json mj;
+    mj["name"] = a.results ? a.results->method_name : std::string();
+    mj["file"] = a.results ? a.results->method_path : std::string();
+    j["method"] = mj;
+    ordered_json rs = ordered_json::array();
+    if (a.results) {
+      for (const auto& r : a.results->results) rs.push_back(result_json(r));
+    }
+    j["result"] = rs.empty() ? ordered_json(nullptr) : rs.front();
+    j["results"] = rs;
+    if (!a.results_error.empty()) j["result_error"] = a.results_error;
+    if (a.results) {
+      j["acceptance_failures"] = a.results->acceptance_failures;
+      if (a.results->titer) {
+        const auto& t = *a.results->titer;
+        ordered_json tj;
+        tj["titrant"] = t.titrant;
+        tj["concentration_mol_L"] = significant(t.concentration_mol_L, 6);
+        tj["uncertainty_mol_L"] = significant(t.uncertainty_mol_L, 3);
+        if (t.nominal_mol_L > 0) tj["titer"] = number(t.concentration_mol_L / t.nominal_mol_L, 5);
+        j["titer"] = tj;
+      }
+    }
+  }
   ordered_json ws = ordered_json::array();
   for (const auto& w : a.warnings) ws.push_back(location(w));
   j["warnings"] = ws;

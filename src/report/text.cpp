@@ -77,6 +77,38 @@ std::string to_text(const Analysis& a) {
     }
     out += detail::endpoint_indicators_line(a, e.index);
   }
+  if (a.results) {
+    out += "  Method: " + a.results->method_name + "\n";
+    for (const auto& r : a.results->results) {
+      const int dd = r.decimals;
+      out += fmt::format("  Result: {} = {:.{}f} {}, U = {:.{}f} (k = 2)", r.name, r.value, dd, method::to_string(r.unit),
+                         r.expanded_uncertainty, dd);
+      if (r.at_pH) out += fmt::format("  [volume at pH {:g}: {:.3f} mL]", *r.at_pH, r.endpoint_volume_mL);
+      else out += fmt::format("  [endpoint {}, {} volume {:.4f} mL]", r.endpoint_index, r.volume_source, r.endpoint_volume_mL);
+      if (!r.verdict.empty()) {
+        out += "  spec";
+        if (r.spec_low) out += fmt::format(" ≥ {:g}", *r.spec_low);
+        if (r.spec_high) out += fmt::format(" ≤ {:g}", *r.spec_high);
+        out += ": " + r.verdict;
+      }
+      out += "\n";
+      out += "      " + r.formula + "; uncertainty budget:";
+      for (const auto& b : r.budget) out += fmt::format(" {} {:.0f} %,", b.name, b.percent);
+      if (!r.budget.empty()) out.pop_back();
+      out += "\n";
+      for (const auto& n : r.notes) out += "      note: " + n + "\n";
+    }
+    for (const auto& f : a.results->acceptance_failures) out += "  Acceptance failed: " + f + "\n";
+    if (a.results->titer) {
+      const auto& t = *a.results->titer;
+      out += fmt::format("  Titrant {}: {:.5f} mol/L, standard uncertainty {:.5f}",
+                         t.titrant.empty() ? std::string("concentration") : t.titrant, t.concentration_mol_L, t.uncertainty_mol_L);
+      if (t.nominal_mol_L > 0) out += fmt::format(" (titer {:.4f} of the nominal {:g})", t.concentration_mol_L / t.nominal_mol_L, t.nominal_mol_L);
+      out += "\n";
+    }
+  } else if (!a.results_error.empty()) {
+    out += "  No result: " + a.results_error + "\n";
+  }
   if (!a.warnings.empty()) {
     out += "  Warnings:\n";
     for (const auto& w : a.warnings) out += "    " + to_string(w) + "\n";
