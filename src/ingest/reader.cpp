@@ -308,7 +308,8 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
     if (h.unit_unknown) {
       fail(header_line, column_of(m_sig),
            fmt::format("unknown unit '{}' in signal column '{}'; expected pH, mV or V", detail::excerpt(h.unit_text),
-                       detail::excerpt(header[m_sig])));
+                       detail::excerpt(header[m_sig])),
+           "write the unit as pH, mV or V, or pass --signal pH|mV");
     }
     if (kind == SignalKind::mv && h.unit && h.unit->quantity == Quantity::potential) {
       m_sig_factor = h.unit->factor;
@@ -510,7 +511,8 @@ void Reader::finish() {
   if (*mn == *mx) {
     fail(m_run.dialect.first_data_line, m_fields.empty() ? 0 : 1,
          fmt::format("all {} readings have the same volume ({:g} mL); expected a titration over a range of volumes",
-                     m_run.volume_mL.size(), *mn));
+                     m_run.volume_mL.size(), *mn),
+         "check that the volume column is the titrant volume (or pass --columns volume=N,signal=M)");
   }
   fill_gaps(m_run.temperature_C);
   fill_gaps(m_run.time_s);
@@ -596,6 +598,32 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
       if ((s.fields == 1 && s.numeric == 1) || (s2.fields == 1 && s2.numeric == 1)) {
         fail(i + 1, 1, "the table has a single column of numbers; expected two: volume and pH (or mV)",
              "export both the volume and the signal columns");
+      }
+    }
+    // A recognisable header over rows that are not numbers: name the first bad cell.
+    for (const Candidate c : kCandidates) {
+      for (std::size_t i = 0; i + 1 < sample.size(); ++i) {
+        const auto cells = split_header(sample[i], c.sep, 0);
+        std::optional<std::size_t> vol, sig;
+        for (std::size_t k = 0; k < cells.size(); ++k) {
+          const auto q = detail::classify_header(cells[k]).quantity;
+          if (q == Quantity::volume && !vol) vol = k;
+          if ((q == Quantity::ph || q == Quantity::potential) && !sig) sig = k;
+        }
+        if (!vol || !sig) continue;
+        std::size_t j = i + 1;
+        while (j < sample.size() && detail::is_blank(sample[j])) ++j;
+        if (j >= sample.size()) continue;
+        detail::split_fields(sample[j], c.sep, scratch);
+        for (std::size_t k : {*vol, *sig}) {
+          double v = 0;
+          if (k < scratch.size() && detail::parse_number(scratch[k].text, c.dec, v) != NumberStatus::ok) {
+            fail(j + 1, scratch[k].column,
+                 fmt::format("'{}' in column '{}' is not a number; expected a number under the header on line {}",
+                             detail::excerpt(scratch[k].text), detail::excerpt(cells[k]), i + 1),
+                 "cells must hold plain numbers (no units or text); units belong in the header");
+          }
+        }
       }
     }
     fail(eof ? 1 : 0, 0,
