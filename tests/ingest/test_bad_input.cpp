@@ -46,7 +46,9 @@ TEST_CASE("binary file", "[ingest][bad]") {
 }
 
 TEST_CASE("no numeric rows", "[ingest][bad]") {
-  expect_error("Volume (mL);pH\nabc;def\nghi;jkl\n", {1, 0, "no table of numbers"});
+  expect_error("Titration report\nnothing was recorded\n", {1, 0, "no table of numbers"});
+  // Under a recognisable header, the first cell that is not a number is named.
+  expect_error("Volume (mL);pH\nabc;def\nghi;jkl\n", {2, 1, "'abc' in column 'Volume (mL)' is not a number"});
 }
 
 TEST_CASE("a single column", "[ingest][bad]") {
