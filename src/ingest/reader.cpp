@@ -530,11 +530,22 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
     int read(char* buffer, int size) override { return target->read(buffer, size); }
     detail::DecodingSource* target;
   };
+  // Inputs up to whole_file_limit_bytes are decoded whole and split in memory: the streaming
+  // LineReader keeps a 48 MiB window, which buys nothing for a small file and
+  // costs a batch or a fuzzer dearly. Larger inputs stream through it.
+  const bool whole = m_size_hint > 0 && m_size_hint <= m_opt.whole_file_limit_bytes;
   std::unique_ptr<::io::LineReader> lines;
-  try {
-    lines = std::make_unique<::io::LineReader>(m_source, std::make_unique<Forward>(decoder));
-  } catch (const std::exception& e) {
-    fail(0, 0, std::string("cannot read the file: ") + e.what());
+  std::string text;
+  std::size_t text_pos = 0, text_line = 0;
+  if (whole) {
+    char buf[1 << 16];
+    while (const int n = decoder->read(buf, static_cast<int>(sizeof buf))) text.append(buf, static_cast<std::size_t>(n));
+  } else {
+    try {
+      lines = std::make_unique<::io::LineReader>(m_source, std::make_unique<Forward>(decoder));
+    } catch (const std::exception& e) {
+      fail(0, 0, std::string("cannot read the file: ") + e.what());
+    }
   }
   auto over_limit = [&] {
     if (decoder->over_limit()) {
@@ -547,11 +558,22 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
          "export the run as CSV or text from the instrument");
   }
   over_limit();
-  auto next = [&](std::size_t& line_no) -> const char* {
+  // The next line (without its LF), or nullopt at the end; line_no is 1-based.
+  auto next = [&](std::size_t& line_no) -> std::optional<std::string_view> {
+    if (whole) {
+      if (text_pos >= text.size()) return std::nullopt;
+      const std::size_t end = text.find('\n', text_pos);
+      const std::size_t stop = end == std::string::npos ? text.size() : end;
+      std::string_view l(text.data() + text_pos, stop - text_pos);
+      text_pos = stop + 1;
+      line_no = ++text_line;
+      return l;
+    }
     try {
       const char* l = lines->next_line();
-      if (l != nullptr) line_no = lines->get_file_line();
-      return l;
+      if (l == nullptr) return std::nullopt;
+      line_no = lines->get_file_line();
+      return std::string_view(l);
     } catch (const ::io::error::line_length_limit_exceeded&) {
       fail(lines->get_file_line(), 0, "line is longer than 16 MiB; not a titration log line");
     } catch (const std::exception& e) {
@@ -565,12 +587,12 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   std::size_t line_no = 0;
   bool eof = false;
   while (sample.size() < kSampleLines && sample_bytes < kSampleBytes) {
-    const char* l = next(line_no);
-    if (l == nullptr) {
+    const auto l = next(line_no);
+    if (!l) {
       eof = true;
       break;
     }
-    std::string_view sv(l);
+    const std::string_view sv = *l;
     check_line_length(sv, line_no);
     sample.emplace_back(sv);
     sample_bytes += sv.size() + 1;
@@ -738,8 +760,8 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   sample.clear();
   sample.shrink_to_fit();
   if (!eof) {
-    while (const char* l = next(line_no)) {
-      std::string_view sv(l);
+    while (const auto l = next(line_no)) {
+      const std::string_view sv = *l;
       check_line_length(sv, line_no);
       take_row(sv, line_no);
       if ((line_no & 0xFFFF) == 0) over_limit();

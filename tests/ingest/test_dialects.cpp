@@ -261,3 +261,23 @@ TEST_CASE("sorting on request accepts rows out of order", "[ingest]") {
   check_three(r);
   CHECK(r.line[0] == 3);
 }
+
+TEST_CASE("whole-file and streaming reads give the same run", "[ingest]") {
+  // Every dialect feature at once: UTF-8 BOM, CR line ends, metadata, decimal comma, text after the table.
+  std::string text = "\xEF\xBB\xBFSample: S-1\rSample volume = 25,0 mL\r\rV/mL;pH;Temp/\xC2\xB0" "C\r";
+  for (int i = 0; i < 3000; ++i) text += std::to_string(i) + ",05;" + std::to_string(3 + i % 7) + ",12;25,0\r";
+  text += "End\r";
+  veq::ingest::IngestOptions stream;
+  stream.whole_file_limit_bytes = 0;
+  const Run a = parse_run(text, "w.csv");
+  const Run b = parse_run(text, "w.csv", stream);
+  CHECK(a.volume_mL == b.volume_mL);
+  CHECK(a.signal_values == b.signal_values);
+  CHECK(a.line == b.line);
+  CHECK(a.temperature_C == b.temperature_C);
+  CHECK(a.metadata == b.metadata);
+  CHECK(a.notes == b.notes);
+  CHECK(a.dialect.encoding == b.dialect.encoding);
+  CHECK(a.dialect.line_ending == b.dialect.line_ending);
+  CHECK(a.volume_mL.size() == 3000);
+}

@@ -284,6 +284,7 @@ TEST_CASE("default options are pinned", "[options]") {
   const veq::ingest::IngestOptions i;
   CHECK(i.max_file_bytes == 64u * 1024u * 1024u);
   CHECK(i.max_line_bytes == 1024u * 1024u);
+  CHECK(i.whole_file_limit_bytes == 8u * 1024u * 1024u);
   CHECK(i.min_pH == -2.0);
   CHECK(i.max_pH == 16.0);
   CHECK(i.max_abs_mV == 2000.0);

@@ -25,6 +25,10 @@ struct ColumnOverrides {
 struct IngestOptions {
   // Files larger than this are refused before reading [bytes].
   std::uint64_t max_file_bytes = std::uint64_t{64} << 20;
+  // Inputs up to this size are decoded whole and split in memory; larger
+  // ones stream through fast-cpp-csv-parser's LineReader (a 48 MiB window).
+  // Both give the same Run [bytes].
+  std::uint64_t whole_file_limit_bytes = std::uint64_t{8} << 20;
   // Any single line longer than this is an error [bytes].
   std::size_t max_line_bytes = std::size_t{1} << 20;
   // --columns: positions that override header recognition.
