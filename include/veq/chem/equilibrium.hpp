@@ -25,7 +25,7 @@ struct SolveOptions {
   int max_root_evaluations = 200;
   // The ionic-strength iteration stops when |L + A g(I)| is below this, L the
   // univalent log10 gamma [log10 units].
-  double activity_tolerance = 1e-14;
+  double activity_tolerance = 1e-15;
   // Most ionic-strength iterations per point.
   int max_activity_iterations = 50;
   // Half-width of the first bracket around a warm start [log10 units]; it is
