@@ -29,6 +29,20 @@ std::vector<std::string> SolveOptions::validate() const {
   return p;
 }
 
+std::vector<CurvePoint> curve_by_pH(
+    const Titration<double>& titration, double pH_from, double pH_to, std::size_t n, double max_volume_mL) {
+  std::vector<CurvePoint> out;
+  if (n < 2) return out;
+  out.reserve(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    const double pH = pH_from + (pH_to - pH_from) * static_cast<double>(i) / static_cast<double>(n - 1);
+    const double v = titration.volume_at_pH(pH);
+    if (std::isfinite(v) && v >= 0.0 && v <= max_volume_mL) out.push_back({v, pH});
+  }
+  std::sort(out.begin(), out.end(), [](const CurvePoint& a, const CurvePoint& b) { return a.volume_mL < b.volume_mL; });
+  return out;
+}
+
 namespace detail {
 
 FastModel make_fast_model(const Model<double>& m) {

@@ -146,19 +146,12 @@ std::string form_label(int top_charge, int steps, int j) {
   const int h = steps - j;
   const int z = top_charge - j;
   std::string s;
-  if (h == 1)
-    s = "H";
-  else if (h > 1)
-    s = "H" + std::to_string(h);
-  s += "A";
-  if (z == 1)
-    s += "+";
-  else if (z == -1)
-    s += "-";
-  else if (z > 1)
-    s += std::to_string(z) + "+";
-  else if (z < -1)
-    s += std::to_string(-z) + "-";
+  if (h >= 1) s.push_back('H');
+  if (h > 1) s.append(std::to_string(h));
+  s.push_back('A');
+  if (z > 1 || z < -1) s.append(std::to_string(z > 0 ? z : -z));
+  if (z > 0) s.push_back('+');
+  if (z < 0) s.push_back('-');
   return s;
 }
 

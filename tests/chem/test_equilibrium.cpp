@@ -340,3 +340,18 @@ TEST_CASE("speciation: fractions sum to 1 and cross at each pKa", "[chem][specia
   CHECK(chem::form_label(0, 3, 3) == "A3-");
   CHECK(chem::form_label(1, 1, 0) == "HA+");
 }
+
+TEST_CASE("closed-form curve by pH lies on the solved curve", "[chem][equilibrium]") {
+  const auto s = sample(25.0, {chem::analyte("phosphoric acid", 0.05)});
+  for (auto activity : {chem::ActivityModel::ideal, chem::ActivityModel::davies}) {
+    const auto t = titration(s, {}, activity);
+    const auto curve = chem::curve_by_pH(t, 1.0, 13.0, 400, 45.0);
+    REQUIRE(curve.size() > 300);
+    for (std::size_t i = 0; i < curve.size(); ++i) {
+      CHECK(curve[i].volume_mL >= 0.0);
+      CHECK(curve[i].volume_mL <= 45.0);
+      if (i > 0) CHECK(curve[i].volume_mL >= curve[i - 1].volume_mL);  // pH rises with base added
+      CHECK(t.pH(curve[i].volume_mL) == close(curve[i].pH, 0.0, 1e-10));
+    }
+  }
+}

@@ -188,4 +188,17 @@ class Titration {
 
 extern template class Titration<double>;
 
+// A curve point of the closed-form evaluation.
+struct CurvePoint {
+  double volume_mL = 0.0;
+  double pH = 0.0;
+};
+
+// The titration curve by the closed form: V at n pH values evenly spaced
+// from pH_from to pH_to (n >= 2), keeping the points with
+// 0 <= V <= max_volume_mL, in order of volume. No root finding: the fast
+// way to draw a curve or tabulate it densely near a jump.
+[[nodiscard]] std::vector<CurvePoint> curve_by_pH(
+    const Titration<double>& titration, double pH_from, double pH_to, std::size_t n, double max_volume_mL);
+
 }  // namespace veq::chem
