@@ -283,7 +283,7 @@ TEST_CASE("ingest reads back every dialect simulate writes, to the last digit", 
   CHECK(combination == 18);
 }
 
-TEST_CASE("simulation options: defaults are pinned and bad values are named", "[chem][options]") {
+TEST_CASE("chem default options are pinned", "[chem][options]") {
   const chem::SolveOptions s;
   CHECK(s.log10_h_tolerance == 1e-12);
   CHECK(s.max_root_evaluations == 200);
@@ -338,7 +338,9 @@ TEST_CASE("simulation options: defaults are pinned and bad values are named", "[
   CHECK(f.columns == std::vector<std::string>{"volume", "signal"});
   CHECK_FALSE(f.crlf);
   CHECK(f.validate().empty());
+}
 
+TEST_CASE("simulation options: bad values are named", "[chem][options]") {
   chem::SimulationOptions bad;
   bad.sample.analytes = {chem::analyte("acetic acid", -1.0)};
   bad.dosing.step_mL = 0.0;
