@@ -57,6 +57,7 @@ FastModel make_fast_model(const Model<double>& m) {
   f.davies_A = m.davies_A;
   f.davies_b = m.davies_b;
   auto add = [&](const Protolyte<double>& p, bool titrant) {
+    assert(p.steps >= 1 && p.steps <= kMaxSteps);
     FastProtolyte q;
     q.steps = p.steps;
     q.top_charge = p.top_charge;

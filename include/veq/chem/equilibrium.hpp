@@ -10,6 +10,7 @@
 #include <limits>
 #include <string>
 #include <type_traits>
+#include <utility>
 #include <vector>
 
 #include "veq/chem/model.hpp"

@@ -8,6 +8,7 @@
 #pragma once
 
 #include <array>
+#include <cassert>
 #include <cmath>
 #include <vector>
 
@@ -90,6 +91,7 @@ template <typename To, typename From>
 template <typename T>
 void form_fractions(const Protolyte<T>& p, const T& log10_h, const T& log10_gamma1, T* fractions) {
   using std::exp;
+  assert(p.steps >= 0 && p.steps <= kMaxSteps);
   T term = T(1.0);
   T sum = T(1.0);
   fractions[0] = T(1.0);
