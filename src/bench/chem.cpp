@@ -157,7 +157,7 @@ int main() {
     std::printf("%s: closed-form V(pH): %.3f us per point\n", a == 0 ? "ideal " : "Davies", ns / 1000.0);
   }
 
-  // A 300-point run: constant dosing 0.15 mL to 44.85 mL (300 readings + the start), Davies, noise, mV.
+  // A 300-point run: constant dosing 0.15 mL from 0 to 44.85 mL (300 readings), Davies, noise, mV.
   chem::SimulationOptions o;
   o.sample.analytes = {chem::analyte("phosphoric acid", 0.05)};
   o.dosing.step_mL = 0.15;
