@@ -22,6 +22,7 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
   add_indicators(app, action);
   add_crosscheck(app, action);
   add_method(app, action);
+  add_simulate(app, action);
 
   std::vector<std::string> reversed(args.size() > 1 ? args.begin() + 1 : args.end(), args.end());
   std::reverse(reversed.begin(), reversed.end());

@@ -17,5 +17,6 @@ void add_analyze(CLI::App& app, Action& action);
 void add_indicators(CLI::App& app, Action& action);
 void add_crosscheck(CLI::App& app, Action& action);
 void add_method(CLI::App& app, Action& action);
+void add_simulate(CLI::App& app, Action& action);
 
 }  // namespace veq::cli
