@@ -8,6 +8,8 @@
 #include <boost/math/distributions/chi_squared.hpp>
 #include <fmt/format.h>
 
+#include "veq/chem/activity.hpp"
+#include "veq/chem/water.hpp"
 #include "veq/core/constants.hpp"
 
 namespace veq::signal {
@@ -90,26 +92,9 @@ struct Series {
   double u_ref = 0;
 };
 
-// pKw(T), Harned & Robinson (1940): 4470.99/T - 6.0875 + 0.01706 T, T in K
-// (REFERENCES §3; from memory; within 0.02 of the handbook table at 0-60 °C).
-// Only the effective-volume correction of buffer branches uses it.
-double pKw_of(double temperature_C) {
-  const double T = temperature_C + constants::kZeroCelsius;
-  return 4470.99 / T - 6.0875 + 0.01706 * T;
-}
 
-// Davies: log10 gamma = -A z^2 (sqrt(I)/(1+sqrt(I)) - 0.3 I); A(T) on the
-// molar scale interpolated in the table printed with the Kielland values
-// (REFERENCES §4; Manov et al. / Truesdell-Jones).
 double davies_log_gamma(int z, double ionic_strength, double temperature_C) {
-  static const double t[] = {0, 5, 10, 15, 20, 25, 30, 35, 40, 50, 60};
-  static const double A[] = {0.4883, 0.4921, 0.4960, 0.5000, 0.5042, 0.5085, 0.5130, 0.5175, 0.5221, 0.5319, 0.5425};
-  const double tc = std::clamp(temperature_C, 0.0, 60.0);
-  std::size_t k = 0;
-  while (k + 2 < std::size(t) && tc > t[k + 1]) ++k;
-  const double a = A[k] + (A[k + 1] - A[k]) * (tc - t[k]) / (t[k + 1] - t[k]);
-  const double sq = std::sqrt(ionic_strength);
-  return -a * z * z * (sq / (1.0 + sq) - 0.3 * ionic_strength);
+  return chem::davies_log10_gamma(z, ionic_strength, chem::debye_huckel_A(temperature_C));
 }
 
 struct Trimmed {
@@ -208,7 +193,7 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   // that went into converting the analyte, which makes G = (V' - V_prev) 10^(-/+pH)
   // exactly straight against V' (charge balance; see DEVELOPERS.md, "Gran's method").
   const bool effective = !mv && inputs.titrant_conc_mol_L.has_value();
-  const double kw = std::pow(10.0, -pKw_of(curve.temperature_C));
+  const double kw = std::pow(10.0, -chem::pKw(curve.temperature_C));
   auto series = [&](GranFunction f, double v_prev, std::size_t lo, std::size_t hi, int sign) {
     Series s;
     double mean_u = 0;
