@@ -8,6 +8,7 @@
 
 #include "support/approx.hpp"
 #include "support/charge_balance.hpp"
+#include "support/runs.hpp"
 #include "veq/analyze.hpp"
 #include "veq/signal/derivatives.hpp"
 #include "veq/signal/endpoints.hpp"
@@ -15,27 +16,9 @@
 #include "veq/signal/prepare.hpp"
 
 using veq::test::Sample;
+using veq::test::grid;
 
 namespace {
-
-veq::Run make_run(const Sample& s, const std::vector<double>& volumes, double noise = 0.0, unsigned seed = 1) {
-  veq::Run r;
-  r.source = "synthetic";
-  std::mt19937 rng(seed);
-  std::normal_distribution<double> gauss(0.0, 1.0);
-  for (std::size_t i = 0; i < volumes.size(); ++i) {
-    r.volume_mL.push_back(volumes[i]);
-    r.signal_values.push_back(veq::test::pH_at_volume(s, volumes[i]) + noise * gauss(rng));
-    r.line.push_back(static_cast<std::uint32_t>(i + 2));
-  }
-  return r;
-}
-
-std::vector<double> grid(double from, double to, double step) {
-  std::vector<double> v;
-  for (int i = 0; from + i * step <= to + 1e-9; ++i) v.push_back(from + i * step);
-  return v;
-}
 
 // 0.1 mol/L HCl, V0 mL, titrated with 0.1 mol/L NaOH: Veq = V0 (stoichiometry).
 Sample strong_acid(double V0) {
@@ -52,7 +35,7 @@ TEST_CASE("strong acid / strong base, dense data: within 0.02 % of the equivalen
   // Veq placed at several positions within a 0.01 mL dosing step.
   const double V0 = GENERATE(20.0, 20.003, 20.0051, 24.9977);
   const Sample s = strong_acid(V0);
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, 0.01)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 35.0, 0.01)));
   REQUIRE(a.endpoints.endpoints.size() == 1);
   const auto& e = a.endpoints.endpoints[0];
   // Stoichiometry: Veq = Ca V0 / Ct.
@@ -66,7 +49,7 @@ TEST_CASE("strong acid / strong base, coarse data: within half a dosing step", "
   const double step = 0.5;
   const double V0 = GENERATE(20.0, 20.1, 20.25, 20.4);
   const Sample s = strong_acid(V0);
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, step)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 35.0, step)));
   REQUIRE(a.endpoints.endpoints.size() == 1);
   const auto& e = a.endpoints.endpoints[0];
   CHECK(std::fabs(e.volume_mL - V0) <= 0.5 * step);
@@ -80,7 +63,7 @@ TEST_CASE("equimolar strong acid / strong base at 25 °C: endpoint pH 7.00 ± 0.
   const double V0 = GENERATE(20.0, 20.0037, 20.0062);
   const Sample s = strong_acid(V0);
   for (double step : {0.01, 0.05, 0.1}) {
-    const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, step)));
+    const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 35.0, step)));
     REQUIRE(a.endpoints.endpoints.size() == 1);
     INFO("step " << step);
     CHECK(a.endpoints.endpoints[0].value == veq::test::close(7.00, 0.0, 0.02));
@@ -95,7 +78,7 @@ TEST_CASE("a two-endpoint curve: both endpoints found", "[signal][endpoints]") {
   s.V0_mL = 25.0;
   s.weak = {{0.05, {2.15, 7.20, 12.34}}};
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, 0.05)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 35.0, 0.05)));
   REQUIRE(a.endpoints.endpoints.size() == 2);
   // The first inflection of a polyprotic acid lies a little off stoichiometry
   // (asymmetric curve; Meites & Meites 1970, from memory): allow 1 %.
@@ -115,7 +98,7 @@ TEST_CASE("uneven spacing: dense dosing near the endpoint, coarse elsewhere", "[
   for (double x = 18.5; x < 19.6; x += 0.25) v.push_back(x);
   for (double x = 19.6; x < 20.4; x += 0.02) v.push_back(x);
   for (double x = 20.5; x <= 26.0; x += 0.5) v.push_back(x);
-  const veq::Analysis a = veq::analyze(make_run(s, v));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, v));
   REQUIRE(a.endpoints.endpoints.size() == 1);
   CHECK(std::fabs(a.endpoints.endpoints[0].volume_mL - V0) <= 0.01);
 }
@@ -127,7 +110,7 @@ TEST_CASE("acetic acid with strong base: endpoint near pH 8.7", "[signal][endpoi
   s.V0_mL = 25.0;
   s.weak = {{0.1, {4.756}}};
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, 0.05)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 35.0, 0.05)));
   REQUIRE(a.endpoints.endpoints.size() == 1);
   CHECK(a.endpoints.endpoints[0].volume_mL == veq::test::close(25.0, 2e-3));
   CHECK(a.endpoints.endpoints[0].value == veq::test::close(8.72, 0.0, 0.1));
@@ -138,7 +121,7 @@ TEST_CASE("strong base titrated with strong acid: falling curve", "[signal][endp
   s.V0_mL = 20.0;
   s.strong_base = 0.1;
   s.titrant = -0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 30.0, 0.05)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 30.0, 0.05)));
   CHECK(a.curve.direction == -1);
   REQUIRE(a.endpoints.endpoints.size() == 1);
   CHECK(std::fabs(a.endpoints.endpoints[0].volume_mL - 20.0) <= 0.025);
@@ -147,7 +130,7 @@ TEST_CASE("strong base titrated with strong acid: falling curve", "[signal][endp
 TEST_CASE("noisy data: endpoint still found, noise estimated", "[signal][endpoints]") {
   const double V0 = 20.0;
   const Sample s = strong_acid(V0);
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, 0.1), 0.01, 7));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 35.0, 0.1), 0.01, 7));
   REQUIRE(a.endpoints.endpoints.size() == 1);
   CHECK(std::fabs(a.endpoints.endpoints[0].volume_mL - V0) <= 0.05);
   // Noise SD 0.01 pH was added; the robust estimate is within a factor 1.5.
@@ -158,7 +141,7 @@ TEST_CASE("noisy data: endpoint still found, noise estimated", "[signal][endpoin
 TEST_CASE("a run cut off just past the endpoint is flagged at the edge", "[signal][endpoints]") {
   // Equivalence at 20.02 mL; the last readings are at 20.05 and 20.10 mL.
   const Sample s = strong_acid(20.02);
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 20.1, 0.05)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 20.1, 0.05)));
   REQUIRE(a.endpoints.endpoints.size() == 1);
   const auto& f = a.endpoints.endpoints[0].flags;
   CHECK(std::find(f.begin(), f.end(), std::string("edge")) != f.end());
@@ -166,7 +149,7 @@ TEST_CASE("a run cut off just past the endpoint is flagged at the edge", "[signa
 
 TEST_CASE("a run stopped before the endpoint reports none, with the reason", "[signal][endpoints]") {
   const Sample s = strong_acid(20.0);
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 19.9, 0.1)));
+  const veq::Analysis a = veq::analyze(veq::test::synthetic_run(s, grid(0.0, 19.9, 0.1)));
   CHECK(a.endpoints.endpoints.empty());
   bool warned = false;
   for (const auto& w : a.warnings) warned = warned || w.code == "no_endpoint";
@@ -175,7 +158,7 @@ TEST_CASE("a run stopped before the endpoint reports none, with the reason", "[s
 
 TEST_CASE("an isolated spike is flagged, kept, and does not make an endpoint", "[signal][prepare]") {
   const Sample s = strong_acid(20.0);
-  veq::Run r = make_run(s, grid(0.0, 30.0, 0.1));
+  veq::Run r = veq::test::synthetic_run(s, grid(0.0, 30.0, 0.1));
   r.signal_values[50] += 1.0;  // one reading 1 pH unit off at 5.0 mL
   const veq::Analysis a = veq::analyze(r);
   REQUIRE(a.curve.spike.size() == r.volume_mL.size());
@@ -201,7 +184,7 @@ TEST_CASE("duplicate volumes are merged into their mean", "[signal][prepare]") {
 TEST_CASE("mV runs: endpoints on mV without calibration, pH with one", "[signal][prepare]") {
   // Nernst slope at 25 °C 59.159 mV/pH (RT ln10 / F, CODATA 2018 constants).
   const Sample s = strong_acid(20.0);
-  veq::Run r = make_run(s, grid(0.0, 30.0, 0.05));
+  veq::Run r = veq::test::synthetic_run(s, grid(0.0, 30.0, 0.05));
   r.signal = veq::SignalKind::mv;
   for (double& y : r.signal_values) y = 400.0 - 59.159 * y;  // E0 = 400 mV
   const veq::Analysis raw = veq::analyze(r);

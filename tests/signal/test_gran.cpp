@@ -7,32 +7,18 @@
 
 #include "support/approx.hpp"
 #include "support/charge_balance.hpp"
+#include "support/runs.hpp"
 #include "veq/analyze.hpp"
 #include "veq/signal/gran.hpp"
 
 using veq::test::Sample;
+using veq::test::grid;
 
 namespace {
 
-veq::Run make_run(const Sample& s, const std::vector<double>& volumes, double noise = 0.0, unsigned seed = 1) {
-  veq::Run r;
-  r.source = "synthetic";
-  r.facts.sample_volume_mL = s.V0_mL;
-  r.facts.titrant_conc_mol_L = std::fabs(s.titrant);
-  std::mt19937 rng(seed);
-  std::normal_distribution<double> gauss(0.0, 1.0);
-  for (std::size_t i = 0; i < volumes.size(); ++i) {
-    r.volume_mL.push_back(volumes[i]);
-    r.signal_values.push_back(veq::test::pH_at_volume(s, volumes[i]) + noise * gauss(rng));
-    r.line.push_back(static_cast<std::uint32_t>(i + 2));
-  }
-  return r;
-}
-
-std::vector<double> grid(double from, double to, double step) {
-  std::vector<double> v;
-  for (int i = 0; from + i * step <= to + 1e-9; ++i) v.push_back(from + i * step);
-  return v;
+// Gran needs V0 (and the activity correction Ct): the runs state both.
+veq::Run with_volumes(const Sample& s, const std::vector<double>& v, double noise = 0.0, unsigned seed = 1) {
+  return veq::test::synthetic_run(s, v, noise, seed, veq::test::Facts::volumes);
 }
 
 veq::AnalyzeOptions ideal() {
@@ -50,7 +36,7 @@ TEST_CASE("Gran is exact for strong acid / strong base on exact curves", "[signa
   s.V0_mL = V0;
   s.strong_acid = 0.1;
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 1.5 * V0, 0.1)), ideal());
+  const veq::Analysis a = veq::analyze(with_volumes(s, grid(0.0, 1.5 * V0, 0.1)), ideal());
   REQUIRE(a.gran.size() == 1);
   REQUIRE(a.gran[0].before.has_value());
   CHECK(a.gran[0].before->function == veq::signal::GranFunction::excess_analyte);
@@ -67,7 +53,7 @@ TEST_CASE("Gran with pH noise sigma = 0.005: within 0.2 %", "[signal][gran]") {
   s.V0_mL = 25.0;
   s.strong_acid = 0.1;
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 37.5, 0.25), 0.005, seed), ideal());
+  const veq::Analysis a = veq::analyze(with_volumes(s, grid(0.0, 37.5, 0.25), 0.005, seed), ideal());
   REQUIRE(a.gran[0].before.has_value());
   CHECK(a.gran[0].before->volume_mL == veq::test::close(25.0, 2e-3));
   CHECK(a.gran[0].before->uncertainty_mL > 0.0);
@@ -80,7 +66,7 @@ TEST_CASE("weak acid: Gran volume and pKa from the buffer slope", "[signal][gran
   s.V0_mL = 25.0;
   s.weak = {{0.1, {4.756}}};
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 35.0, 0.1)), ideal());
+  const veq::Analysis a = veq::analyze(with_volumes(s, grid(0.0, 35.0, 0.1)), ideal());
   REQUIRE(a.gran[0].before.has_value());
   const auto& b = *a.gran[0].before;
   CHECK(b.function == veq::signal::GranFunction::buffer);
@@ -98,7 +84,7 @@ TEST_CASE("weak base with strong acid: buffer branch, pKa of the conjugate acid"
   s.weak = {{0.1, {9.25}}};
   s.strong_base = 0.1;
   s.titrant = -0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 30.0, 0.1)), ideal());
+  const veq::Analysis a = veq::analyze(with_volumes(s, grid(0.0, 30.0, 0.1)), ideal());
   REQUIRE(a.gran.size() == 1);
   REQUIRE(a.gran[0].before.has_value());
   const auto& b = *a.gran[0].before;
@@ -115,7 +101,7 @@ TEST_CASE("polyprotic: the second endpoint's buffer branch gives pKa2", "[signal
   s.V0_mL = 25.0;
   s.weak = {{0.05, {2.15, 7.20, 12.34}}};
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 28.0, 0.05)), ideal());
+  const veq::Analysis a = veq::analyze(with_volumes(s, grid(0.0, 28.0, 0.05)), ideal());
   REQUIRE(a.gran.size() == 2);
   REQUIRE(a.gran[1].before.has_value());
   CHECK(a.gran[1].before->volume_mL == veq::test::close(25.0, 1e-3));
@@ -128,7 +114,7 @@ TEST_CASE("a run cut off just past the endpoint: derivative at the edge, Gran wi
   s.V0_mL = 20.02;
   s.strong_acid = 0.1;
   s.titrant = 0.1;
-  const veq::Analysis a = veq::analyze(make_run(s, grid(0.0, 20.1, 0.05), 0.005, 9), ideal());
+  const veq::Analysis a = veq::analyze(with_volumes(s, grid(0.0, 20.1, 0.05), 0.005, 9), ideal());
   REQUIRE(a.endpoints.endpoints.size() == 1);
   const auto& e = a.endpoints.endpoints[0];
   CHECK(std::find(e.flags.begin(), e.flags.end(), std::string("edge")) != e.flags.end());
@@ -165,7 +151,7 @@ TEST_CASE("missing sample volume: Gran is skipped with a warning, never guessed"
   s.V0_mL = 20.0;
   s.strong_acid = 0.1;
   s.titrant = 0.1;
-  veq::Run r = make_run(s, grid(0.0, 30.0, 0.1));
+  veq::Run r = with_volumes(s, grid(0.0, 30.0, 0.1));
   r.facts.sample_volume_mL.reset();
   const veq::Analysis a = veq::analyze(r);
   REQUIRE(a.gran.size() == 1);
