@@ -14,6 +14,7 @@ namespace veq::cli {
 
 int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
   CLI::App app{"veq: endpoints, results and indicator checks from potentiometric acid-base titration logs"};
+  app.name("veq");
   app.set_version_flag("--version", "veq " + veq::version());
   app.require_subcommand(1);
   app.fallthrough(false);
@@ -24,6 +25,11 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
   add_method(app, action);
   add_simulate(app, action);
 
+  if (args.size() <= 1) {
+    // No command at all: show what there is, as a usage error.
+    err << app.help();
+    return kExitUsage;
+  }
   std::vector<std::string> reversed(args.size() > 1 ? args.begin() + 1 : args.end(), args.end());
   std::reverse(reversed.begin(), reversed.end());
   try {
