@@ -27,7 +27,11 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
   gi.sample_volume_mL = run.facts.sample_volume_mL;
   gi.titrant_conc_mol_L = run.facts.titrant_conc_mol_L;
   gi.temperature_C = a.curve.temperature_C;
-  a.gran = signal::gran_endpoints(a.curve, a.endpoints.endpoints, gi, options.gran, a.warnings, run.source);
+  signal::GranOptions gran = options.gran;
+  if (!gran.analyte_charge && options.method && options.method->analyte_charge) {
+    gran.analyte_charge = options.method->analyte_charge;  // the method says what the analyte is
+  }
+  a.gran = signal::gran_endpoints(a.curve, a.endpoints.endpoints, gi, gran, a.warnings, run.source);
   for (std::size_t i = 0; i < a.endpoints.endpoints.size(); ++i) {
     signal::Endpoint& e = a.endpoints.endpoints[i];
     const signal::GranEndpoint& g = a.gran[i];

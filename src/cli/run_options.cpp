@@ -46,6 +46,11 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
       ->group(endpoints);
   cmd->add_option("--min-separation", o.min_separation_mL, "Smallest distance between endpoints [mL] (default: 3 dosing steps)")
       ->group(endpoints);
+  cmd->add_option("--analyte-charge", o.analyte_charge,
+                  "Charge of the analyte titrated (0: HA or B, -1: hydrogen phthalate, -2: carbonate); "
+                  "lets Gran correct for activity")
+      ->group(endpoints)
+      ->check(CLI::Range(-4, 4));
   cmd->add_option("--gran-window", o.gran_window, "Fit the Gran line only to readings in FROM:TO mL (default: chosen by the linearity rule)")
       ->group(endpoints);
   cmd->add_option("--drop-volume", o.drop_volume_mL, "Volume of one drop from the burette [mL] (default 0.05)")
@@ -89,6 +94,7 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
   ao.endpoints.window_points = o.window;
   if (o.min_height) ao.endpoints.min_relative_height = *o.min_height;
   if (o.min_separation_mL) ao.endpoints.min_separation_mL = *o.min_separation_mL;
+  if (o.analyte_charge) ao.gran.analyte_charge = o.analyte_charge;
   if (!o.gran_window.empty()) {
     double from = 0, to = 0;
     char colon = 0, extra = 0;

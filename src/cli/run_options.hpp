@@ -31,6 +31,7 @@ struct RunOptions {
   std::optional<double> min_separation_mL;
   std::string gran_window;  // "from:to" [mL]
   std::string method_file;  // --method
+  std::optional<int> analyte_charge;  // --analyte-charge
   std::optional<double> drop_volume_mL;  // --drop-volume: one drop from the burette [mL]
 };
 

@@ -206,6 +206,12 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
     m.molar_mass_g_mol = a->positive("molar_mass_g_mol");
     m.molar_mass_u_g_mol = a->uncertainty("molar_mass", "_g_mol");
     m.stoichiometry = a->positive("stoichiometry", 1.0);
+    if (auto z = a->number("charge")) {
+      if (*z != std::floor(*z) || *z < -4 || *z > 4) {
+        a->fail(a->line_of("charge"), fmt::format("'analyte.charge' = {:g}: expected a whole number from -4 to 4", *z));
+      }
+      m.analyte_charge = static_cast<int>(*z);
+    }
     a->reject_unknown();
   }
   if (auto s = sub("sample")) {

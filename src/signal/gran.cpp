@@ -114,7 +114,10 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
     if (!(std::fabs(f.b) > 0) || !std::isfinite(f.a)) break;
     const double score = f.reduced() / chi2_limit(f.n);
     if (score < best_score) best_score = score, best = {f, lo, hi, false, true};
-    if (fixed || (f.reduced() <= chi2_limit(f.n) && !residual_pattern(s.v, s.g, lo, hi, f))) {
+    // A residual pattern counts only when the residuals are not far below the noise
+    // (reduced chi-square >= 0.25: an RMS of half the reading noise or more).
+    const bool pattern = f.reduced() >= 0.25 && residual_pattern(s.v, s.g, lo, hi, f);
+    if (fixed || (f.reduced() <= chi2_limit(f.n) && !pattern)) {
       return {f, lo, hi, !fixed || f.reduced() <= chi2_limit(f.n), true};
     }
     if (static_cast<int>(hi - lo) < min_points) break;
@@ -152,7 +155,9 @@ std::vector<std::string> GranOptions::validate() const {
     p.push_back(fmt::format("gran after_from/after_to = {:g}/{:g}: expected 0 <= from < to", after_from, after_to));
   }
   if (min_points < 3) p.push_back(fmt::format("gran min_points = {}: must be at least 3", min_points));
-  if (analyte_charge < -4 || analyte_charge > 4) p.push_back(fmt::format("analyte_charge = {}: expected -4..4", analyte_charge));
+  if (analyte_charge && (*analyte_charge < -4 || *analyte_charge > 4)) {
+    p.push_back(fmt::format("analyte_charge = {}: expected -4..4", *analyte_charge));
+  }
   if (!(background_ionic_strength_mol_L >= 0 && background_ionic_strength_mol_L < 5)) {
     p.push_back(fmt::format("background ionic strength = {:g} mol/L: expected 0 to 5", background_ionic_strength_mol_L));
   }
@@ -186,33 +191,82 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   const int ud = mv ? -d : d;
   const double sigma_u = std::max(mv ? curve.noise_sd / s_mV : curve.noise_sd, 1e-4);
 
+  // Ionic strength along a branch, from the stoichiometry (documented in DEVELOPERS.md):
+  // the titrant's counter-ion, the analyte's own singly charged counter-ions, the two
+  // forms of step k in proportion to the segment fraction, and a background. Before the
+  // first endpoint of a strong analyte and after the last one the ions are taken as
+  // monovalent: Ct V_eq/(V0 + V) and Ct V/(V0 + V).
+  const int z0 = options.analyte_charge.value_or(0);
+  auto step_charges = [&](int step) {
+    // (acid form, base form) of step k
+    if (ud > 0) return std::pair<int, int>{z0 - (step - 1), z0 - step};
+    return std::pair<int, int>{z0 + step, z0 + (step - 1)};
+  };
+  auto buffer_ionic = [&](double v, double x_eff, int step, double v_prev, double seg) {
+    const double ct = *inputs.titrant_conc_mol_L;
+    const double frac = std::clamp((x_eff - v_prev) / seg, 0.0, 1.0);
+    const double c_an = ct * seg / (V0 + v);
+    const auto [za, zb] = step_charges(step);
+    // converted fraction: the base form for a base titrant, the acid form for an acid titrant
+    const double forms = ud > 0 ? c_an * ((1 - frac) * za * za + frac * zb * zb)
+                                : c_an * ((1 - frac) * zb * zb + frac * za * za);
+    return 0.5 * (ct * v / (V0 + v) + std::abs(z0) * c_an + forms) + options.background_ionic_strength_mol_L;
+  };
+
   // Builds the scaled Gran series of one function over indices [lo, hi].
   // sign: -1 for 10^(-u) (excess acid / acid buffer for a rising u), +1 for 10^(u - 14).
   // A buffer branch of a calibrated run with a known titrant concentration uses
   // the effective volume V' = V + ud (V0 + V)([H+] - [OH-]) / Ct, the titrant
   // that went into converting the analyte, which makes G = (V' - V_prev) 10^(-/+pH)
   // exactly straight against V' (charge balance; see DEVELOPERS.md, "Gran's method").
+  // With the activity correction each G also carries the Davies activity
+  // coefficients, so that a changing ionic strength does not bend the line.
   const bool effective = !mv && inputs.titrant_conc_mol_L.has_value();
+  const bool corrected = effective && options.activity_correction && options.analyte_charge.has_value();
   const double kw = std::pow(10.0, -chem::pKw(curve.temperature_C));
-  auto series = [&](GranFunction f, double v_prev, std::size_t lo, std::size_t hi, int sign) {
+  struct Segment {
+    int step = 1;        // 1-based endpoint index
+    double v_prev = 0;   // previous equivalence volume [mL]
+    double seg = 1;      // segment length [mL]
+    double v_eq = 0;     // this equivalence volume [mL]
+  };
+  auto series = [&](GranFunction f, const Segment& sg, std::size_t lo, std::size_t hi, int sign, double* mean_ionic) {
     Series s;
     double mean_u = 0;
     for (std::size_t i = lo; i <= hi; ++i) mean_u += U[i];
     s.u_ref = mean_u / static_cast<double>(hi - lo + 1);
+    double sum_ionic = 0;
     for (std::size_t i = lo; i <= hi; ++i) {
       double x = V[i];
       if (f == GranFunction::buffer && effective) {
         const double h = std::pow(10.0, -U[i]);
         x = V[i] + ud * (V0 + V[i]) * (h - kw / h) / *inputs.titrant_conc_mol_L;
       }
-      const double pre = f == GranFunction::buffer ? (x - v_prev) : (V0 + V[i]);
-      const double g = pre * std::pow(10.0, sign * (U[i] - s.u_ref));
+      const double pre = f == GranFunction::buffer ? (x - sg.v_prev) : (V0 + V[i]);
+      double g = pre * std::pow(10.0, sign * (U[i] - s.u_ref));
+      if (corrected) {
+        const double ct = *inputs.titrant_conc_mol_L;
+        double ionic = 0;
+        if (f == GranFunction::buffer) {
+          ionic = buffer_ionic(V[i], x, sg.step, sg.v_prev, sg.seg);
+          const auto [za, zb] = step_charges(sg.step);
+          const double lg = davies_log_gamma(zb, ionic, inputs.temperature_C) -
+                            davies_log_gamma(za, ionic, inputs.temperature_C);
+          g *= std::pow(10.0, ud > 0 ? lg : -lg);  // x gamma_B/gamma_A (base titrant) or gamma_A/gamma_B
+        } else {
+          const double v_ions = f == GranFunction::excess_analyte ? sg.v_eq : V[i];
+          ionic = ct * v_ions / (V0 + V[i]) + options.background_ionic_strength_mol_L;
+          g /= std::pow(10.0, davies_log_gamma(1, ionic, inputs.temperature_C));  // activity of H+ or OH- -> concentration
+        }
+        sum_ionic += ionic;
+      }
       // Noise: dG = G ln10 du, so weight 1/(G ln10 sigma)^2 (constant relative noise).
-      const double sg = std::max(std::fabs(g) * kLn10 * sigma_u, 1e-300);
+      const double sgm = std::max(std::fabs(g) * kLn10 * sigma_u, 1e-300);
       s.v.push_back(x);
       s.g.push_back(g);
-      s.w.push_back(1.0 / (sg * sg));
+      s.w.push_back(1.0 / (sgm * sgm));
     }
+    if (mean_ionic) *mean_ionic = sum_ionic / static_cast<double>(hi - lo + 1);
     return s;
   };
 
@@ -225,12 +279,12 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   };
 
   // Fits one branch; nullopt when it has too few readings or no line.
-  auto branch = [&](GranFunction f, bool after, double v_prev, double from, double to, int sign, bool fixed,
-                    double v_expect, double seg) -> std::optional<GranBranch> {
+  auto branch = [&](GranFunction f, bool after, const Segment& sg, double from, double to, int sign,
+                    bool fixed) -> std::optional<GranBranch> {
     std::size_t lo = 0, hi = 0;
     if (!index_range(from, to, lo, hi)) return std::nullopt;
     // Thin very long windows for the search, refit on all readings at the end.
-    const Series full = series(f, v_prev, lo, hi, sign);
+    const Series full = series(f, sg, lo, hi, sign, nullptr);
     const std::size_t n = full.v.size();
     std::size_t stride = n > 400 ? n / 400 : 1;
     Series thin;
@@ -257,7 +311,10 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
     b.window_to_mL = V[lo + fhi];
     b.r2 = fit.r2;
     b.reduced_chi2 = fit.reduced();
-    b.linear = t.linear;
+    // A window that had to shrink to a small part of the candidates means the
+    // function does not describe this branch (it was only straight by accident).
+    const auto candidates = static_cast<int>(n);
+    b.linear = t.linear && (fixed || fit.n >= std::max(options.min_points + 2, candidates / 5));
     b.slope = fit.b;
     b.intercept = fit.a;
     const double x0 = -fit.a / fit.b;
@@ -268,7 +325,7 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
     b.uncertainty_mL = std::sqrt(std::max(var_x0, 0.0));
     if (!std::isfinite(b.volume_mL) || !std::isfinite(b.uncertainty_mL)) return std::nullopt;
     // A line whose intercept is far from the derivative endpoint does not describe this branch.
-    if (std::fabs(b.volume_mL - v_expect) > options.max_offset * seg) return std::nullopt;
+    if (std::fabs(b.volume_mL - sg.v_eq) > options.max_offset * sg.seg) return std::nullopt;
     for (std::size_t i = flo; i <= fhi; ++i) b.line_points.emplace_back(full.v[i], full.g[i]);
     return b;
   };
@@ -291,9 +348,10 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
       const double from = win_before ? win->first : vp + options.before_from * seg;
       const double to = win_before ? win->second : vp + options.before_to * seg;
       const double buffer_to = win_before ? win->second : vp + options.buffer_to * seg;
+      const Segment sg{static_cast<int>(k) + 1, vp, seg, vk};
       std::optional<GranBranch> strong, buffer;
-      if (k == 0) strong = branch(GranFunction::excess_analyte, false, 0.0, from, to, before_sign, win_before, vk, seg);
-      buffer = branch(GranFunction::buffer, false, vp, from, buffer_to, before_sign, win_before, vk, seg);
+      if (k == 0) strong = branch(GranFunction::excess_analyte, false, sg, from, to, before_sign, win_before);
+      buffer = branch(GranFunction::buffer, false, sg, from, buffer_to, before_sign, win_before);
       auto better = [](const std::optional<GranBranch>& a, const std::optional<GranBranch>& b) {
         if (!a) return false;
         if (!b) return true;
@@ -311,36 +369,18 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
         for (std::size_t i = lo; i <= hi; ++i) uref += U[i];
         uref /= static_cast<double>(hi - lo + 1);
         // Refit the chosen window with G scaled by its own mean level.
-        const Series sr = series(GranFunction::buffer, vp, lo, hi, before_sign);
+        double ionic = 0;
+        const Series sr = series(GranFunction::buffer, sg, lo, hi, before_sign, &ionic);
         const Fit f = fit_line(sr.v, sr.g, sr.w, 0, sr.v.size() - 1);
         const double b = f.b;
         if (b < 0) {
-          const double pKa_c = ud > 0 ? -std::log10(-b) + uref : std::log10(-b) + uref;
+          // With the activity correction the slope is the thermodynamic Ka; without it the
+          // mixed constant (pH measures activity, the stoichiometry concentration).
+          chosen->pKa = ud > 0 ? -std::log10(-b) + uref : std::log10(-b) + uref;
           const double se_b = std::sqrt(std::max(f.reduced() * f.var_b, 0.0));
-          chosen->pKa = pKa_c;
           chosen->pKa_std_error = se_b / (std::fabs(b) * kLn10);
-          if (options.activity_correction && inputs.titrant_conc_mol_L) {
-            const double ct = *inputs.titrant_conc_mol_L;
-            const double vm = 0.5 * (chosen->window_from_mL + chosen->window_to_mL);
-            const double x = std::clamp((vm - vp) / seg, 0.0, 1.0);
-            const double c_an = ct * seg / (V0 + vm);
-            const int step = static_cast<int>(k) + 1;
-            const int z0 = options.analyte_charge;
-            int z_acid = 0, z_base = 0;
-            if (ud > 0) z_acid = z0 - (step - 1), z_base = z0 - step;
-            else z_base = z0 + (step - 1), z_acid = z0 + step;
-            // Ionic strength from the stoichiometry: titrant counter-ion, the analyte's own
-            // counter-ions (singly charged), the two forms of this step, a background.
-            const double za2 = z_acid * z_acid, zb2 = z_base * z_base;
-            const double forms = ud > 0 ? c_an * ((1 - x) * za2 + x * zb2) : c_an * ((1 - x) * zb2 + x * za2);
-            const double ionic = 0.5 * (ct * vm / (V0 + vm) + std::abs(z0) * c_an + forms) +
-                                 options.background_ionic_strength_mol_L;
-            chosen->ionic_strength_mol_L = ionic;
-            // pKa = pKa' - log gamma(base form) + log gamma(acid form)
-            chosen->pKa = pKa_c - davies_log_gamma(z_base, ionic, inputs.temperature_C) +
-                          davies_log_gamma(z_acid, ionic, inputs.temperature_C);
-            chosen->pKa_activity_corrected = true;
-          }
+          chosen->pKa_activity_corrected = corrected;
+          if (corrected) chosen->ionic_strength_mol_L = ionic;
         }
       }
       out[k].before = chosen;
@@ -349,7 +389,8 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
     if (last && (!win || win_after)) {
       const double from = win_after ? win->first : vk + options.after_from * seg;
       const double to = win_after ? win->second : vk + options.after_to * seg;
-      out[k].after = branch(GranFunction::excess_titrant, true, 0.0, from, to, -before_sign, win_after, vk, seg);
+      const Segment sg{static_cast<int>(k) + 1, 0.0, seg, vk};
+      out[k].after = branch(GranFunction::excess_titrant, true, sg, from, to, -before_sign, win_after);
     }
     if (!out[k].before && !out[k].after) {
       warnings.push_back({"gran_failed",

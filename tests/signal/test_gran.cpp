@@ -9,6 +9,8 @@
 #include "support/charge_balance.hpp"
 #include "support/runs.hpp"
 #include "veq/analyze.hpp"
+#include "veq/chem/analytes.hpp"
+#include "veq/chem/simulate.hpp"
 #include "veq/signal/gran.hpp"
 
 using veq::test::Sample;
@@ -192,7 +194,46 @@ TEST_CASE("Gran default options are pinned", "[options]") {
   CHECK(g.min_points == 4);
   CHECK(g.max_offset == 0.10);
   CHECK(g.activity_correction);
-  CHECK(g.analyte_charge == 0);
+  CHECK_FALSE(g.analyte_charge.has_value());
   CHECK(g.background_ionic_strength_mol_L == 0.0);
   CHECK(g.validate().empty());
+}
+
+TEST_CASE("Gran on a non-ideal (Davies) curve: corrected for activity when the charge is stated", "[signal][gran][reference]") {
+  // Acetic acid, thermodynamic pKa 4.756 (CRC Handbook, organic acids), 0.1 mol/L in 25 mL with
+  // 0.1 mol/L NaOH, simulated by the chemistry model with Davies activity coefficients.
+  veq::chem::SimulationOptions so;
+  so.sample.volume_mL = 25.0;
+  so.sample.analytes = {veq::chem::analyte("acetic acid", 0.1)};
+  so.titrant.conc_mol_L = 0.1;
+  so.dosing.step_mL = 0.1;
+  so.dosing.final_volume_mL = 35.0;
+  const veq::chem::Simulation sim = veq::chem::simulate(so);
+  veq::Run r;
+  r.source = "davies";
+  r.facts.sample_volume_mL = 25.0;
+  r.facts.titrant_conc_mol_L = 0.1;
+  for (std::size_t i = 0; i < sim.readings.size(); ++i) {
+    r.volume_mL.push_back(sim.readings[i].volume_mL);
+    r.signal_values.push_back(sim.readings[i].signal);
+    r.line.push_back(static_cast<std::uint32_t>(i + 2));
+  }
+  veq::AnalyzeOptions o;
+  o.gran.analyte_charge = 0;  // HA, a neutral acid
+  const veq::Analysis a = veq::analyze(r, o);
+  REQUIRE(a.gran[0].before.has_value());
+  const auto& b = *a.gran[0].before;
+  CHECK(b.pKa_activity_corrected);
+  REQUIRE(b.pKa.has_value());
+  CHECK(*b.pKa == veq::test::close(4.756, 0.0, 0.02));
+  // Stoichiometry: Veq = 0.1 x 25 / 0.1 = 25.00 mL.
+  CHECK(b.volume_mL == veq::test::close(25.0, 1e-3));
+  // Without the charge: the mixed constant, lower by about A (sqrt(I)/(1+sqrt(I)) - 0.3 I) at the
+  // window's ionic strength (Davies; A = 0.509 at 25 °C, REFERENCES §4): 0.05-0.1 for I of 0.02-0.04.
+  const veq::Analysis m = veq::analyze(r);
+  REQUIRE(m.gran[0].before.has_value());
+  CHECK_FALSE(m.gran[0].before->pKa_activity_corrected);
+  const double shift = *b.pKa - *m.gran[0].before->pKa;
+  CHECK(shift > 0.03);
+  CHECK(shift < 0.12);
 }

@@ -60,6 +60,7 @@ struct Method {
   std::optional<double> molar_mass_g_mol;     // M of the analyte [g/mol]
   double molar_mass_u_g_mol = 0.0;
   double stoichiometry = 1.0;                 // nu: mol analyte per mol titrant [-]
+  std::optional<int> analyte_charge;          // charge of the form titrated from (0 for HA or B), for activity
 
   std::optional<double> sample_volume_mL;     // Vs [mL], else from the run
   double sample_volume_u_mL = 0.0;

@@ -39,12 +39,14 @@ struct GranOptions {
   // A line whose intercept lies further than this fraction of the segment
   // from the derivative endpoint does not describe the branch [-].
   double max_offset = 0.10;
-  // Correct the pKa from a buffer slope for activity (Davies) when the
-  // ionic strength can be estimated (needs the titrant concentration) [-].
+  // Correct the Gran functions and the pKa for activity (Davies) when the
+  // ionic strength is known: the titrant concentration is known and the
+  // analyte's charge is stated (analyte_charge) [-].
   bool activity_correction = true;
   // Charge of the analyte form present at the start: 0 for a neutral acid
-  // HA or base B, -1 for hydrogen phthalate, -2 for carbonate [-].
-  int analyte_charge = 0;
+  // HA or base B, -1 for hydrogen phthalate, -2 for carbonate. Unset: not
+  // known, so no activity correction (classic Gran; mixed pKa) [-].
+  std::optional<int> analyte_charge;
   // Ionic strength of a background electrolyte, added to the estimate [mol/L].
   double background_ionic_strength_mol_L = 0.0;
 
