@@ -23,6 +23,7 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
   add_indicators(app, action);
   add_crosscheck(app, action);
   add_method(app, action);
+  add_serve(app, action);
   add_simulate(app, action);
 
   if (args.size() <= 1) {

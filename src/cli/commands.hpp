@@ -17,6 +17,7 @@ void add_analyze(CLI::App& app, Action& action);
 void add_indicators(CLI::App& app, Action& action);
 void add_crosscheck(CLI::App& app, Action& action);
 void add_method(CLI::App& app, Action& action);
+void add_serve(CLI::App& app, Action& action);
 void add_simulate(CLI::App& app, Action& action);
 
 }  // namespace veq::cli
