@@ -2,6 +2,8 @@
 // The upload page's HTTP server (cpp-httplib): uploads analysed in memory, results kept for download.
 #include "serve/server.hpp"
 
+#include <sys/socket.h>
+
 #include <algorithm>
 #include <cctype>
 #include <deque>
@@ -193,7 +195,17 @@ struct Server::Impl {
     return names;
   }
 
+  int listen_fd = -1;  // the listening socket, seen when it is created
+
   void setup() {
+    // cpp-httplib as Debian builds it listens with a backlog of 5, which drops
+    // connections under a burst of uploads; keep the socket so that bind() can
+    // raise the backlog (listen() on a listening socket only changes it).
+    http.set_socket_options([this](socket_t sock) {
+      int yes = 1;
+      ::setsockopt(sock, SOL_SOCKET, SO_REUSEADDR, &yes, sizeof yes);
+      listen_fd = sock;
+    });
     // The whole request is held in memory while it is read: bound it (per thread).
     http.set_payload_max_length(std::min(opt.max_request_bytes, opt.max_file_bytes * opt.max_files + (64u << 10)));
     http.set_read_timeout(opt.read_timeout_s, 0);
@@ -391,6 +403,7 @@ int Server::bind() {
   } else {
     m_impl->port = m_impl->http.bind_to_port(m_impl->opt.bind_address, m_impl->opt.port) ? m_impl->opt.port : -1;
   }
+  if (m_impl->port > 0 && m_impl->listen_fd >= 0) ::listen(m_impl->listen_fd, SOMAXCONN);
   if (m_impl->port <= 0) {
     throw InputError({"veq serve", 0, 0},
                      fmt::format("cannot listen on {}:{}", m_impl->opt.bind_address, m_impl->opt.port),
