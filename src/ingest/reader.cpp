@@ -191,6 +191,8 @@ class Reader {
   double m_vol_factor = 1.0, m_sig_factor = 1.0;
   double m_temp_factor = 1.0, m_temp_offset = 0.0, m_time_factor = 1.0;
   std::vector<Field> m_fields;
+  std::vector<std::string> m_header;  // header cells, to recognise a header repeated inside the table
+  std::size_t m_repeated_headers = 0;
   struct Pending {
     std::size_t line;
     std::size_t column;
@@ -356,6 +358,15 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
   if (!m_fields.front().quoted && (first.rfind('#', 0) == 0 || first.rfind("//", 0) == 0)) {
     m_run.notes.emplace_back(detail::trim(line));
     return;
+  }
+  // A header repeated inside the table (paginated exports print it on every page): skip it.
+  if (!m_header.empty() && m_fields.size() == m_header.size()) {
+    bool same = true;
+    for (std::size_t i = 0; i < m_fields.size() && same; ++i) same = detail::trim(m_header[i]) == m_fields[i].text;
+    if (same) {
+      if (++m_repeated_headers == 1) warn("repeated_header", "the header is repeated inside the table; skipped", line_no);
+      return;
+    }
   }
   const std::size_t need = std::max(m_vol, m_sig);
   auto col_name = [&](std::size_t i) {
@@ -729,6 +740,7 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   }
   m_run.dialect.header_line = header_line;
   choose_columns(header, header_line);
+  m_header = header;
 
   std::vector<detail::MetaEntry> meta;
   for (std::size_t i = 0; i < preamble_end; ++i) {

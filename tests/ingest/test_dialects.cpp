@@ -281,3 +281,11 @@ TEST_CASE("whole-file and streaming reads give the same run", "[ingest]") {
   CHECK(a.dialect.line_ending == b.dialect.line_ending);
   CHECK(a.volume_mL.size() == 3000);
 }
+
+TEST_CASE("a header repeated inside the table (paginated export) is skipped with a warning", "[ingest]") {
+  const Run r = parse_run("Volume (mL);pH\n0.00;3.12\n12.50;4.75\nVolume (mL);pH\n25.00;8.71\n", "pages.csv");
+  check_three(r);
+  bool warned = false;
+  for (const auto& w : r.warnings) warned = warned || (w.code == "repeated_header" && w.where.line == 4);
+  CHECK(warned);
+}
