@@ -11,6 +11,7 @@
 #include "veq/core/atomic_file.hpp"
 #include "veq/core/constants.hpp"
 #include "veq/ingest/reader.hpp"
+#include "veq/report/html.hpp"
 #include "veq/report/json.hpp"
 #include "veq/report/text.hpp"
 
@@ -20,6 +21,7 @@ void add_analyze(CLI::App& app, Action& action) {
   struct State {
     std::string run;
     std::string json;
+    std::string html;
     bool force = false;
     bool quiet = false;
     RunOptions opt;
@@ -28,6 +30,7 @@ void add_analyze(CLI::App& app, Action& action) {
   CLI::App* cmd = app.add_subcommand("analyze", "Find the endpoints of one run and print a summary");
   cmd->add_option("RUN", st->run, "The exported log (pH or mV against volume)")->required();
   cmd->add_option("--json", st->json, "Also write the result as JSON to FILE, or '-' for standard output");
+  cmd->add_option("--html", st->html, "Also write the readable report (HTML with plots) to FILE");
   cmd->add_flag("--force", st->force, "Replace an existing output file");
   cmd->add_flag("-q,--quiet", st->quiet, "No summary on standard output");
   add_run_options(cmd, st->opt);
@@ -45,6 +48,7 @@ void add_analyze(CLI::App& app, Action& action) {
         if (json_stdout) out << json;
         else io::write_file_atomically(st->json, json, st->force);
       }
+      if (!st->html.empty()) io::write_file_atomically(st->html, report::to_html(a), st->force);
       return a.endpoints.endpoints.empty() ? kExitFailed : kExitOk;
     };
   });

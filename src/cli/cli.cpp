@@ -19,6 +19,7 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
   app.fallthrough(false);
   Action action;
   add_analyze(app, action);
+  add_batch(app, action);
 
   std::vector<std::string> reversed(args.size() > 1 ? args.begin() + 1 : args.end(), args.end());
   std::reverse(reversed.begin(), reversed.end());

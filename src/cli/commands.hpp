@@ -14,5 +14,6 @@ using Action = std::function<int(std::ostream& out, std::ostream& err)>;
 
 // Each adds its subcommand to app and stores what to run in action.
 void add_analyze(CLI::App& app, Action& action);
+void add_batch(CLI::App& app, Action& action);
 
 }  // namespace veq::cli
