@@ -20,7 +20,7 @@ TEST_CASE("hash64 is XXH3-64 with seed 0", "[batch][listing][reference]") {
   CHECK(veq::batch::hash_hex(veq::batch::hash64("")) == "2d06800538d394c2");
 }
 
-TEST_CASE("--shard I/N is parsed strictly", "[batch][listing]") {
+TEST_CASE("shard spec I/N is parsed strictly", "[batch][listing]") {
   const Shard s = veq::batch::parse_shard("2/5");
   CHECK(s.index == 2);
   CHECK(s.count == 5);
