@@ -11,6 +11,7 @@
 #include <algorithm>
 #include <atomic>
 #include <cerrno>
+#include <charconv>
 #include <chrono>
 #include <cmath>
 #include <condition_variable>
@@ -95,6 +96,10 @@ ordered_json rounded(double x, int decimals) {
   double r = std::round(x * scale) / scale;
   if (r == 0.0) r = 0.0;
   return r;
+}
+
+double seconds_since(Clock::time_point t) {
+  return std::chrono::duration<double>(Clock::now() - t).count();
 }
 
 int decimals_for(double u) {
@@ -200,14 +205,15 @@ Source read_source(const fs::path& path, std::uint64_t max_bytes) {
         "file is {:.1f} MiB; the limit is {} MiB", static_cast<double>(s.size) / 1048576.0, max_bytes >> 20);
     return s;
   }
+  // Read the size fstat gave, then probe for more: a file still growing is read
+  // on up to the limit and no further.
   s.bytes.resize(static_cast<std::size_t>(s.size));
   std::size_t got = 0;
+  char probe[4096];
   for (;;) {
-    if (got == s.bytes.size()) {
-      if (s.bytes.size() > max_bytes) break;
-      s.bytes.resize(std::min<std::uint64_t>(max_bytes + 1, s.bytes.size() + 65536 + s.bytes.size() / 2));
-    }
-    const ssize_t n = ::read(fd, s.bytes.data() + got, s.bytes.size() - got);
+    const bool into_buffer = got < s.bytes.size();
+    const ssize_t n =
+        into_buffer ? ::read(fd, s.bytes.data() + got, s.bytes.size() - got) : ::read(fd, probe, sizeof probe);
     if (n < 0 && errno == EINTR) continue;
     if (n < 0) {
       const int err = errno;
@@ -217,7 +223,12 @@ Source read_source(const fs::path& path, std::uint64_t max_bytes) {
       return s;
     }
     if (n == 0) break;
+    if (!into_buffer) {
+      s.bytes.resize(got);
+      s.bytes.append(probe, static_cast<std::size_t>(n));
+    }
     got += static_cast<std::size_t>(n);
+    if (got > max_bytes) break;
   }
   ::close(fd);
   s.bytes.resize(got);
@@ -287,25 +298,40 @@ struct Context {
   Log& log;
 };
 
+// A thumbnail in the manifest: "x,y x,y ..." in pixels to 0.1 px (one string
+// parses far faster than an array of arrays when 10,000 manifests are read back).
 ordered_json thumbnail_json(const report::Thumbnail& t) {
-  ordered_json pts = ordered_json::array();
-  for (const auto& [x, y] : t.points_px) pts.push_back({rounded(x, 1), rounded(y, 1)});
-  ordered_json eps = ordered_json::array();
-  for (double x : t.endpoints_px) eps.push_back(rounded(x, 1));
+  std::string pts, eps;
+  for (const auto& [x, y] : t.points_px) pts += fmt::format("{}{:.1f},{:.1f}", pts.empty() ? "" : " ", x, y);
+  for (const double x : t.endpoints_px) eps += fmt::format("{}{:.1f}", eps.empty() ? "" : " ", x);
   return {{"points", pts}, {"endpoints", eps}};
 }
 
-std::optional<report::Thumbnail> thumbnail_from(const ordered_json& j) {
-  if (!j.is_object() || !j.contains("points") || !j["points"].is_array()) return std::nullopt;
-  report::Thumbnail t;
-  for (const auto& p : j["points"]) {
-    if (!p.is_array() || p.size() != 2 || !p[0].is_number() || !p[1].is_number()) return std::nullopt;
-    t.points_px.emplace_back(p[0].get<double>(), p[1].get<double>());
+// Numbers separated by spaces (and commas within a point); nullopt on anything else.
+std::optional<std::vector<double>> numbers(const std::string& text) {
+  std::vector<double> v;
+  const char* p = text.data();
+  const char* end = p + text.size();
+  while (p < end) {
+    double x = 0;
+    const auto [q, ec] = std::from_chars(p, end, x);
+    if (ec != std::errc() || !std::isfinite(x)) return std::nullopt;
+    v.push_back(x);
+    p = q;
+    if (p < end && (*p == ' ' || *p == ',')) ++p;
   }
-  if (j.contains("endpoints") && j["endpoints"].is_array()) {
-    for (const auto& x : j["endpoints"]) {
-      if (x.is_number()) t.endpoints_px.push_back(x.get<double>());
-    }
+  return v;
+}
+
+// Read back from a manifest; the numbers are checked, and the SVG is drawn from them anew.
+std::optional<report::Thumbnail> thumbnail_from(const ordered_json& j) {
+  if (!j.is_object() || !j.contains("points") || !j["points"].is_string()) return std::nullopt;
+  const auto pts = numbers(j["points"].get<std::string>());
+  if (!pts || pts->size() % 2 != 0) return std::nullopt;
+  report::Thumbnail t;
+  for (std::size_t i = 0; i + 1 < pts->size(); i += 2) t.points_px.emplace_back((*pts)[i], (*pts)[i + 1]);
+  if (j.contains("endpoints") && j["endpoints"].is_string()) {
+    if (const auto eps = numbers(j["endpoints"].get<std::string>())) t.endpoints_px = *eps;
   }
   return t;
 }
@@ -390,16 +416,29 @@ bool still_valid(
     (void)kind;
     if (!o.is_object() || !o.contains("name") || !o["name"].is_string() || !o.contains("xxh3")) return false;
     const std::string name = o["name"].get<std::string>();
-    if (name.find('/') != std::string::npos || name.rfind(t.stem, 0) != 0) return false;
-    if (hash_of_file(cx.runs_dir / name) != o["xxh3"].get<std::string>()) return false;
+    if (name != kResultJson && name != kReportHtml) return false;
+    if (hash_of_file(cx.runs_dir / t.stem / name) != o["xxh3"].get<std::string>()) return false;
   }
   return true;
 }
 
+// Removes temporaries a killed batch left in dir (not recursive); returns how many.
+std::size_t sweep_temporaries(const fs::path& dir) {
+  std::error_code ec;
+  std::size_t n = 0;
+  for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
+    const std::string name = it->path().filename().string();
+    if (name.find(io::kTemporaryMarker) == std::string::npos) continue;
+    std::error_code rec;
+    if (fs::remove(it->path(), rec)) ++n;
+  }
+  return n;
+}
+
 void remove_stale_outputs(const Context& cx, const Task& t) {
   std::error_code ec;
-  fs::remove(cx.runs_dir / (t.stem + ".json"), ec);
-  fs::remove(cx.runs_dir / (t.stem + ".html"), ec);
+  fs::remove(cx.runs_dir / t.stem / kResultJson, ec);
+  fs::remove(cx.runs_dir / t.stem / kReportHtml, ec);
 }
 
 Outcome process(const Context& cx, const Task& t) {
@@ -407,7 +446,13 @@ Outcome process(const Context& cx, const Task& t) {
   const auto t0 = Clock::now();
   if (cx.hooks.before_run) cx.hooks.before_run(t.rel);
   const fs::path source_path = cx.opt.input_dir / fs::path(t.rel);
-  const fs::path manifest_path = cx.runs_dir / (t.stem + ".manifest.json");
+  const fs::path run_dir = cx.runs_dir / t.stem;
+  const fs::path manifest_path = run_dir / kManifestJson;
+  // One folder per run: its files are created and renamed without contending
+  // with the other workers for one big folder. Leftovers of a killed batch in it go first.
+  if (const std::size_t swept = sweep_temporaries(run_dir); swept > 0) {
+    cx.log.line(fmt::format("removed {} temporary file(s) left by an interrupted batch for {}", swept, t.rel));
+  }
   Source src = read_source(source_path, cx.opt.ingest.max_file_bytes);
   if (src.state == Source::State::missing) {
     out.status = RunStatus::missing;
@@ -446,7 +491,7 @@ Outcome process(const Context& cx, const Task& t) {
     json_text = report::to_json(a);
     if (cx.opt.html_reports) {
       report::HtmlOptions ho;
-      ho.index_href = "../" + std::string(kIndexHtml);
+      ho.index_href = "../../" + std::string(kIndexHtml);
       html_text = report::to_html(a, ho);
     }
     m["row"] = analysed_row(a, status);
@@ -462,15 +507,16 @@ Outcome process(const Context& cx, const Task& t) {
   // Other exceptions are bugs; the caller turns them into internal_error.
 
   try {
+    std::error_code ec;
+    fs::create_directory(run_dir, ec);
+    if (ec) throw InputError({run_dir.string(), 0, 0}, "cannot create the run's output folder: " + ec.message());
     if (!json_text.empty()) {
-      const std::string name = t.stem + ".json";
-      io::write_file_atomically(cx.runs_dir / name, json_text, true, io::Sync::deferred);
-      outputs["json"] = {{"name", name}, {"xxh3", hash_hex(hash64(json_text))}};
+      io::write_file_atomically(run_dir / kResultJson, json_text, true, io::Sync::deferred);
+      outputs["json"] = {{"name", kResultJson}, {"xxh3", hash_hex(hash64(json_text))}};
     }
     if (!html_text.empty()) {
-      const std::string name = t.stem + ".html";
-      io::write_file_atomically(cx.runs_dir / name, html_text, true, io::Sync::deferred);
-      outputs["html"] = {{"name", name}, {"xxh3", hash_hex(hash64(html_text))}};
+      io::write_file_atomically(run_dir / kReportHtml, html_text, true, io::Sync::deferred);
+      outputs["html"] = {{"name", kReportHtml}, {"xxh3", hash_hex(hash64(html_text))}};
     }
     if (json_text.empty()) remove_stale_outputs(cx, t);
     m["outputs"] = outputs;
@@ -487,18 +533,6 @@ Outcome process(const Context& cx, const Task& t) {
 }
 
 // ---- the folder ----------------------------------------------------------------
-
-void sweep_temporaries(const fs::path& dir, Log& log) {
-  std::error_code ec;
-  std::size_t n = 0;
-  for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
-    const std::string name = it->path().filename().string();
-    if (name.find(io::kTemporaryMarker) == std::string::npos) continue;
-    std::error_code rec;
-    if (fs::remove(it->path(), rec)) ++n;
-  }
-  if (n > 0) log.line(fmt::format("removed {} temporary file(s) left by an interrupted batch in {}", n, dir.string()));
-}
 
 void check_output_folder(const BatchOptions& o) {
   std::error_code ec;
@@ -550,7 +584,7 @@ report::SummaryRow row_from(const ordered_json& row, const Task& t, const ordere
   r.flags = s("flags");
   r.error = s("error");
   if (manifest != nullptr && manifest->contains("outputs") && (*manifest)["outputs"].contains("html")) {
-    r.report_href = std::string(kRunsFolder) + "/" + (*manifest)["outputs"]["html"]["name"].get<std::string>();
+    r.report_href = fmt::format("{}/{}/{}", kRunsFolder, t.stem, kReportHtml);
   }
   if (manifest != nullptr && manifest->contains("thumbnail")) r.thumbnail = thumbnail_from((*manifest)["thumbnail"]);
   return r;
@@ -565,8 +599,8 @@ ordered_json json_entry(const ordered_json& row, const Task& t, const ordered_js
   e["json"] = nullptr;
   if (manifest != nullptr && manifest->contains("outputs")) {
     const auto& o = (*manifest)["outputs"];
-    if (o.contains("html")) e["report"] = std::string(kRunsFolder) + "/" + o["html"]["name"].get<std::string>();
-    if (o.contains("json")) e["json"] = std::string(kRunsFolder) + "/" + o["json"]["name"].get<std::string>();
+    if (o.contains("html")) e["report"] = fmt::format("{}/{}/{}", kRunsFolder, t.stem, kReportHtml);
+    if (o.contains("json")) e["json"] = fmt::format("{}/{}/{}", kRunsFolder, t.stem, kResultJson);
   }
   return e;
 }
@@ -585,8 +619,11 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   const FolderLock lock(options.output_dir);
   Log log(options.output_dir / kLogFile);
   const fs::path runs_dir = options.output_dir / kRunsFolder;
-  sweep_temporaries(options.output_dir, log);
-  sweep_temporaries(runs_dir, log);
+  for (const fs::path& d : {options.output_dir, runs_dir}) {
+    if (const std::size_t n = sweep_temporaries(d); n > 0) {
+      log.line(fmt::format("removed {} temporary file(s) left by an interrupted batch in {}", n, d.string()));
+    }
+  }
 
   std::vector<Task> tasks;
   tasks.reserve(listing.files.size());
@@ -679,7 +716,10 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
 
   // Per-run files were written without a sync each; one sync of the file
   // system makes them durable before the summaries that point at them.
+  const auto sync_start = Clock::now();
   ::syncfs(lock.fd());
+  const double sync_s = seconds_since(sync_start);
+  const auto summaries_start = Clock::now();
 
   BatchSummary summary;
   summary.listed = tasks.size();
@@ -738,31 +778,77 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   json.write(head_text + ",\n  \"runs\": [");
   index.write(report::index_html_begin(info));
 
-  for (std::size_t i = 0; i < tasks.size(); ++i) {
+  // Each run's pieces of the four files are made on the worker threads, a
+  // chunk at a time (memory stays bounded), and written in listing order.
+  struct Pieces {
+    std::string csv, json, index, errors;
+  };
+  auto pieces_of = [&](std::size_t i) -> Pieces {
     const Task& t = tasks[i];
     const Outcome& o = outcomes[i];
-    std::optional<ordered_json> manifest;
-    if (o.manifest) manifest = read_json(runs_dir / (t.stem + ".manifest.json"));
-    ordered_json row;
-    if (manifest && manifest->contains("row") && (*manifest)["row"].is_object()) {
-      row = (*manifest)["row"];
-    } else if (o.manifest) {
-      row = failed_row(RunStatus::internal_error, t.rel + ": internal error: its manifest could not be read back");
-    } else {
-      row =
-          failed_row(o.status, o.status == RunStatus::not_run ? "not processed: the batch was stopped first" : o.error);
+    Pieces p;
+    try {
+      std::optional<ordered_json> manifest;
+      if (o.manifest) manifest = read_json(runs_dir / t.stem / kManifestJson);
+      ordered_json row;
+      if (manifest && manifest->contains("row") && (*manifest)["row"].is_object()) {
+        row = (*manifest)["row"];
+      } else if (o.manifest) {
+        row = failed_row(RunStatus::internal_error, t.rel + ": internal error: its manifest could not be read back");
+      } else {
+        row = failed_row(o.status,
+                         o.status == RunStatus::not_run ? "not processed: the batch was stopped first" : o.error);
+      }
+      const ordered_json* mp = manifest ? &*manifest : nullptr;
+      const report::SummaryRow r = row_from(row, t, mp);
+      p.csv = report::summary_csv_row(r);
+      p.json = std::string(i == 0 ? "\n" : ",\n") +
+               indent(json_entry(row, t, mp).dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "    ");
+      p.index = report::index_html_row(r, i + 1);
+      if (const auto st = status_from_string(r.status); st && is_failure(*st)) {
+        std::string e = r.error;
+        if (e.rfind(t.rel, 0) != 0) e = t.rel + ": " + e;
+        p.errors = fmt::format("{}  [{}]\n", e, r.status);
+      }
+    } catch (const std::exception& e) {
+      // A manifest that parses but does not have the expected shape (edited by hand?).
+      report::SummaryRow r;
+      r.file = t.rel;
+      r.status = std::string(to_string(RunStatus::internal_error));
+      r.error = t.rel + ": internal error: its manifest could not be read back (" + e.what() + ")";
+      ordered_json row = failed_row(RunStatus::internal_error, r.error);
+      p.csv = report::summary_csv_row(r);
+      p.json =
+          std::string(i == 0 ? "\n" : ",\n") +
+          indent(json_entry(row, t, nullptr).dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "    ");
+      p.index = report::index_html_row(r, i + 1);
+      p.errors = r.error + "  [internal_error]\n";
     }
-    const ordered_json* mp = manifest ? &*manifest : nullptr;
-    const report::SummaryRow r = row_from(row, t, mp);
-    csv.write(report::summary_csv_row(r));
-    json.write(std::string(i == 0 ? "\n" : ",\n") +
-               indent(json_entry(row, t, mp).dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "    "));
-    index.write(report::index_html_row(r, i + 1));
-    if (const auto st = status_from_string(r.status); st && is_failure(*st)) {
-      std::string e = r.error;
-      if (e.rfind(t.rel, 0) != 0) e = t.rel + ": " + e;
-      errors.write(fmt::format("{}  [{}]\n", e, r.status));
+    return p;
+  };
+  constexpr std::size_t kChunk = 512;
+  std::vector<Pieces> chunk;
+  for (std::size_t begin = 0; begin < tasks.size(); begin += kChunk) {
+    const std::size_t end = std::min(tasks.size(), begin + kChunk);
+    chunk.assign(end - begin, Pieces{});
+    std::vector<std::thread> helpers;
+    for (unsigned k = 0; k < jobs; ++k) {
+      helpers.emplace_back([&, k] {
+        for (std::size_t i = begin + k; i < end; i += jobs) chunk[i - begin] = pieces_of(i);
+      });
     }
+    for (auto& h : helpers) h.join();
+    Pieces joined;  // one write per file and chunk
+    for (const Pieces& p : chunk) {
+      joined.csv += p.csv;
+      joined.json += p.json;
+      joined.index += p.index;
+      joined.errors += p.errors;
+    }
+    csv.write(joined.csv);
+    json.write(joined.json);
+    index.write(joined.index);
+    errors.write(joined.errors);
   }
   json.write(tasks.empty() ? "]\n}\n" : "\n  ]\n}\n");
   index.write(report::index_html_end());
@@ -778,14 +864,19 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
     if (summary.count(e.status) > 0) counts_text += fmt::format(" {} {},", e.name, summary.count(e.status));
   }
   if (!counts_text.empty()) counts_text.pop_back();
-  log.line(fmt::format("{}: {} processed, {} kept unchanged, {} replaced; in {:.2f} s ({:.0f} runs/s);{}",
-                       summary.stopped ? "stopped early" : "done",
-                       summary.processed,
-                       summary.resumed,
-                       summary.replaced,
-                       summary.elapsed_s,
-                       runs_s > 0 ? static_cast<double>(summary.processed + summary.resumed) / runs_s : 0.0,
-                       counts_text));
+  log.line(fmt::format(
+      "{}: {} processed, {} kept unchanged, {} replaced; {:.2f} s in all (runs {:.2f} s, {:.0f} runs/s; sync "
+      "{:.2f} s; summaries {:.2f} s);{}",
+      summary.stopped ? "stopped early" : "done",
+      summary.processed,
+      summary.resumed,
+      summary.replaced,
+      summary.elapsed_s,
+      runs_s,
+      runs_s > 0 ? static_cast<double>(summary.processed + summary.resumed) / runs_s : 0.0,
+      sync_s,
+      seconds_since(summaries_start),
+      counts_text));
   return summary;
 }
 

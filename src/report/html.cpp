@@ -585,6 +585,21 @@ Thumbnail thumbnail(const Analysis& a) {
   return t;
 }
 
+namespace {
+
+// A thumbnail coordinate to 0.1 px by integer arithmetic: a listing of 10,000
+// runs formats millions of them.
+void append_tenths(std::string& out, double v) {
+  const long t = std::lround(std::clamp(v, -1e6, 1e6) * 10.0);
+  if (t < 0) out += '-';
+  const long a = t < 0 ? -t : t;
+  out += std::to_string(a / 10);
+  out += '.';
+  out += static_cast<char>('0' + a % 10);
+}
+
+}  // namespace
+
 std::string thumbnail_svg(const Thumbnail& t) {
   std::string s = fmt::format(
       "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"thumb\" viewBox=\"0 0 {0} {1}\" width=\"{0}\" height=\"{1}\" "
@@ -602,9 +617,12 @@ std::string thumbnail_svg(const Thumbnail& t) {
   }
   if (t.points_px.size() >= 2) {
     std::string pts;
+    pts.reserve(10 * t.points_px.size());
     for (const auto& [x, y] : t.points_px) {
       if (!pts.empty()) pts += ' ';
-      pts += svg::coord(std::clamp(x, 0.0, kThumbWidth)) + "," + svg::coord(std::clamp(y, 0.0, kThumbHeight));
+      append_tenths(pts, std::clamp(x, 0.0, kThumbWidth));
+      pts += ',';
+      append_tenths(pts, std::clamp(y, 0.0, kThumbHeight));
     }
     s += fmt::format("<polyline points=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"1.2\"/>", pts, kInk);
   }

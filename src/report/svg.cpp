@@ -5,6 +5,7 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 
 #include "veq/report/html.hpp"
@@ -13,7 +14,10 @@ namespace veq::report::svg {
 
 std::string coord(double px) {
   if (!std::isfinite(px)) px = 0.0;
-  std::string s = fmt::format("{:.2f}", px);
+  // std::to_chars rounds exactly, like "{:.2f}", at a fraction of the cost (thousands per page).
+  char buf[64];
+  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, px, std::chars_format::fixed, 2);
+  std::string s = ec == std::errc() ? std::string(buf, end) : fmt::format("{:.2f}", px);
   if (s == "-0.00") s = "0.00";
   return s;
 }

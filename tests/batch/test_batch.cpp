@@ -240,7 +240,7 @@ TEST_CASE("resuming: unchanged runs are kept, changed ones redone, outputs ident
   CHECK(outputs(out) == clean);
 
   // A damaged output is noticed (its hash no longer matches) and rewritten.
-  const fs::path json = out / "runs" / (veq::batch::output_stem(sim.name) + ".json");
+  const fs::path json = out / "runs" / veq::batch::output_stem(sim.name) / "result.json";
   write_file(json, slurp(json).substr(0, 100));
   again = veq::batch::run_batch(options_for(in, out));
   CHECK(again.processed == 1);
@@ -295,6 +295,8 @@ TEST_CASE("stale temporaries are swept; the output folder is protected", "[batch
   const std::string marker(veq::io::kTemporaryMarker);
   write_file(out / ("summary.csv" + marker + "99-1"), "half");
   write_file(out / "runs" / ("x.json" + marker + "99-2"), "half");
+  const std::string one = veq::test::simulate_run(11, 1).name;
+  write_file(out / "runs" / veq::batch::output_stem(one) / ("report.html" + marker + "99-3"), "<html");
   (void)veq::batch::run_batch(options_for(in, out));
   CHECK_FALSE(any_temporary(out));
   CHECK(outputs(out) == clean);

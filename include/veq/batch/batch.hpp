@@ -99,8 +99,8 @@ struct BatchSummary {
 };
 
 // Runs every file of the folder (this shard) on `jobs` threads and writes, in
-// output_dir: runs/<stem>.json, runs/<stem>.html and runs/<stem>.manifest.json
-// per run (stem from output_stem()), then summary.csv, summary.json,
+// output_dir: runs/<stem>/result.json, report.html and manifest.json per run
+// (stem from output_stem()), then summary.csv, summary.json,
 // index.html and errors.txt, rebuilt from the manifests in the order of
 // relative paths, so the same folder gives the same bytes whatever the thread
 // timing or earlier interruptions; and appends to batch.log (the one file
@@ -115,8 +115,13 @@ struct BatchSummary {
 // cannot be written.
 [[nodiscard]] BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks = {});
 
-// Names of the files in output_dir (stable; documented in the README).
+// Names of the files in output_dir (stable; documented in the README). Each
+// run has a folder runs/<stem>/ (stem from output_stem()) holding its result,
+// report and manifest.
 inline constexpr std::string_view kRunsFolder = "runs";
+inline constexpr const char* kResultJson = "result.json";
+inline constexpr const char* kReportHtml = "report.html";
+inline constexpr const char* kManifestJson = "manifest.json";
 inline constexpr std::string_view kSummaryCsv = "summary.csv";
 inline constexpr std::string_view kSummaryJson = "summary.json";
 inline constexpr std::string_view kIndexHtml = "index.html";
