@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <map>
+
 #include <nlohmann/json.hpp>
 
 namespace veq::report {
@@ -62,16 +63,11 @@ ordered_json gran_json(const signal::GranBranch& b) {
 
 std::string separator_name(char sep) {
   switch (sep) {
-    case ',':
-      return "comma";
-    case ';':
-      return "semicolon";
-    case '\t':
-      return "tab";
-    case '|':
-      return "bar";
-    default:
-      return "spaces";
+    case ',': return "comma";
+    case ';': return "semicolon";
+    case '\t': return "tab";
+    case '|': return "bar";
+    default: return "spaces";
   }
 }
 

@@ -2,11 +2,11 @@
 // Gran plots: weighted straight lines through linearised branches, window by a linearity rule.
 #include "veq/signal/gran.hpp"
 
-#include <fmt/format.h>
-
 #include <algorithm>
-#include <boost/math/distributions/chi_squared.hpp>
 #include <cmath>
+
+#include <boost/math/distributions/chi_squared.hpp>
+#include <fmt/format.h>
 
 #include "veq/core/constants.hpp"
 
@@ -16,7 +16,7 @@ namespace {
 using constants::kLn10;
 
 struct Fit {
-  double a = 0, b = 0;                      // y = a + b x
+  double a = 0, b = 0;                 // y = a + b x
   double var_a = 0, var_b = 0, cov_ab = 0;  // unscaled (weights as 1/sigma^2)
   double chi2 = 0;
   double r2 = 0;
@@ -25,10 +25,7 @@ struct Fit {
 };
 
 // Weighted least squares on [lo, hi], two-pass (centred) for accuracy.
-Fit fit_line(const std::vector<double>& x,
-             const std::vector<double>& y,
-             const std::vector<double>& w,
-             std::size_t lo,
+Fit fit_line(const std::vector<double>& x, const std::vector<double>& y, const std::vector<double>& w, std::size_t lo,
              std::size_t hi) {
   Fit f;
   f.n = static_cast<int>(hi - lo + 1);
@@ -61,8 +58,8 @@ Fit fit_line(const std::vector<double>& x,
 
 // Wald-Wolfowitz runs test on residual signs: true when there are too few
 // runs for chance (one-sided, 1 %), i.e. the residuals follow a curve.
-bool residual_pattern(
-    const std::vector<double>& x, const std::vector<double>& y, std::size_t lo, std::size_t hi, const Fit& f) {
+bool residual_pattern(const std::vector<double>& x, const std::vector<double>& y, std::size_t lo, std::size_t hi,
+                      const Fit& f) {
   const std::size_t n = hi - lo + 1;
   if (n < 10) return false;
   int pos = 0, neg = 0, runs = 0, last = 0;
@@ -150,10 +147,8 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
     if (static_cast<int>(hi - lo) < min_points) break;
     const Fit fl = fit_line(s.v, s.g, s.w, lo + 1, hi);
     const Fit fh = fit_line(s.v, s.g, s.w, lo, hi - 1);
-    if (fl.reduced() < fh.reduced())
-      ++lo, next = fl;
-    else
-      --hi, next = fh;
+    if (fl.reduced() < fh.reduced()) ++lo, next = fl;
+    else --hi, next = fh;
   }
   return best;
 }
@@ -162,12 +157,9 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
 
 std::string_view to_string(GranFunction f) {
   switch (f) {
-    case GranFunction::excess_analyte:
-      return "excess_analyte";
-    case GranFunction::excess_titrant:
-      return "excess_titrant";
-    case GranFunction::buffer:
-      return "buffer";
+    case GranFunction::excess_analyte: return "excess_analyte";
+    case GranFunction::excess_titrant: return "excess_titrant";
+    case GranFunction::buffer: return "buffer";
   }
   return "excess_analyte";
 }
@@ -175,37 +167,28 @@ std::string_view to_string(GranFunction f) {
 std::vector<std::string> GranOptions::validate() const {
   std::vector<std::string> p;
   if (window_mL && !(window_mL->first >= 0 && window_mL->second > window_mL->first)) {
-    p.push_back(fmt::format(
-        "gran window {:g}:{:g} mL: expected from < to, both 0 or more", window_mL->first, window_mL->second));
+    p.push_back(fmt::format("gran window {:g}:{:g} mL: expected from < to, both 0 or more", window_mL->first,
+                            window_mL->second));
   }
-  if (!(before_from >= 0 && before_from < before_to && before_to <= 1.0 && before_from < buffer_to &&
-        buffer_to <= 1.0)) {
+  if (!(before_from >= 0 && before_from < before_to && before_to <= 1.0 && before_from < buffer_to && buffer_to <= 1.0)) {
     p.push_back(fmt::format("gran before_from/before_to/buffer_to = {:g}/{:g}/{:g}: expected 0 <= from < to <= 1",
-                            before_from,
-                            before_to,
-                            buffer_to));
+                            before_from, before_to, buffer_to));
   }
-  if (!(max_offset > 0 && max_offset <= 1))
-    p.push_back(fmt::format("gran max_offset = {:g}: expected (0, 1]", max_offset));
+  if (!(max_offset > 0 && max_offset <= 1)) p.push_back(fmt::format("gran max_offset = {:g}: expected (0, 1]", max_offset));
   if (!(after_from >= 0 && after_from < after_to)) {
     p.push_back(fmt::format("gran after_from/after_to = {:g}/{:g}: expected 0 <= from < to", after_from, after_to));
   }
   if (min_points < 3) p.push_back(fmt::format("gran min_points = {}: must be at least 3", min_points));
-  if (analyte_charge < -4 || analyte_charge > 4)
-    p.push_back(fmt::format("analyte_charge = {}: expected -4..4", analyte_charge));
+  if (analyte_charge < -4 || analyte_charge > 4) p.push_back(fmt::format("analyte_charge = {}: expected -4..4", analyte_charge));
   if (!(background_ionic_strength_mol_L >= 0 && background_ionic_strength_mol_L < 5)) {
-    p.push_back(
-        fmt::format("background ionic strength = {:g} mol/L: expected 0 to 5", background_ionic_strength_mol_L));
+    p.push_back(fmt::format("background ionic strength = {:g} mol/L: expected 0 to 5", background_ionic_strength_mol_L));
   }
   return p;
 }
 
-std::vector<GranEndpoint> gran_endpoints(const Curve& curve,
-                                         const std::vector<Endpoint>& endpoints,
-                                         const GranInputs& inputs,
-                                         const GranOptions& options,
-                                         std::vector<Diagnostic>& warnings,
-                                         const std::string& file) {
+std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<Endpoint>& endpoints,
+                                         const GranInputs& inputs, const GranOptions& options,
+                                         std::vector<Diagnostic>& warnings, const std::string& file) {
   std::vector<GranEndpoint> out(endpoints.size());
   if (endpoints.empty()) return out;
   if (!inputs.sample_volume_mL) {
@@ -269,15 +252,8 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve,
   };
 
   // Fits one branch; nullopt when it has too few readings or no line.
-  auto branch = [&](GranFunction f,
-                    bool after,
-                    double v_prev,
-                    double from,
-                    double to,
-                    int sign,
-                    bool fixed,
-                    double v_expect,
-                    double seg) -> std::optional<GranBranch> {
+  auto branch = [&](GranFunction f, bool after, double v_prev, double from, double to, int sign, bool fixed,
+                    double v_expect, double seg) -> std::optional<GranBranch> {
     std::size_t lo = 0, hi = 0;
     if (!index_range(from, to, lo, hi)) return std::nullopt;
     // Thin very long windows for the search, refit on all readings at the end.
@@ -287,8 +263,7 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve,
     Series thin;
     if (stride > 1) {
       thin.u_ref = full.u_ref;
-      for (std::size_t i = 0; i < n; i += stride)
-        thin.v.push_back(full.v[i]), thin.g.push_back(full.g[i]), thin.w.push_back(full.w[i]);
+      for (std::size_t i = 0; i < n; i += stride) thin.v.push_back(full.v[i]), thin.g.push_back(full.g[i]), thin.w.push_back(full.w[i]);
     }
     const Series& search = stride > 1 ? thin : full;
     Trimmed t = trim(search, 0, search.v.size() - 1, options.min_points, fixed);
@@ -379,16 +354,14 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve,
             const int step = static_cast<int>(k) + 1;
             const int z0 = options.analyte_charge;
             int z_acid = 0, z_base = 0;
-            if (ud > 0)
-              z_acid = z0 - (step - 1), z_base = z0 - step;
-            else
-              z_base = z0 + (step - 1), z_acid = z0 + step;
+            if (ud > 0) z_acid = z0 - (step - 1), z_base = z0 - step;
+            else z_base = z0 + (step - 1), z_acid = z0 + step;
             // Ionic strength from the stoichiometry: titrant counter-ion, the analyte's own
             // counter-ions (singly charged), the two forms of this step, a background.
             const double za2 = z_acid * z_acid, zb2 = z_base * z_base;
             const double forms = ud > 0 ? c_an * ((1 - x) * za2 + x * zb2) : c_an * ((1 - x) * zb2 + x * za2);
-            const double ionic =
-                0.5 * (ct * vm / (V0 + vm) + std::abs(z0) * c_an + forms) + options.background_ionic_strength_mol_L;
+            const double ionic = 0.5 * (ct * vm / (V0 + vm) + std::abs(z0) * c_an + forms) +
+                                 options.background_ionic_strength_mol_L;
             chosen->ionic_strength_mol_L = ionic;
             // pKa = pKa' - log gamma(base form) + log gamma(acid form)
             chosen->pKa = pKa_c - davies_log_gamma(z_base, ionic, inputs.temperature_C) +
@@ -417,8 +390,7 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve,
       warnings.push_back({"gran_window",
                           fmt::format("the Gran window {:g}:{:g} mL lies in no branch of this run (before an endpoint, "
                                       "or after the last one) or holds too few readings",
-                                      options.window_mL->first,
-                                      options.window_mL->second),
+                                      options.window_mL->first, options.window_mL->second),
                           {file, 0, 0}});
     }
   }
@@ -432,11 +404,11 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
     bool flagged;
   };
   std::vector<Est> all;
-  const bool d_flagged = std::any_of(
-      e.flags.begin(), e.flags.end(), [](const std::string& f) { return f == kFlagEdge || f == kFlagFewPoints; });
+  const bool d_flagged = std::any_of(e.flags.begin(), e.flags.end(), [](const std::string& f) {
+    return f == kFlagEdge || f == kFlagFewPoints;
+  });
   all.push_back({"derivative", e.volume_mL, e.uncertainty_mL, d_flagged});
-  if (g.before && g.before->linear)
-    all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
+  if (g.before && g.before->linear) all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
   if (g.after && g.after->linear) all.push_back({"gran_after", g.after->volume_mL, g.after->uncertainty_mL, false});
   const bool any_clean = std::any_of(all.begin(), all.end(), [](const Est& x) { return !x.flagged; });
   std::vector<Est> used;
