@@ -13,13 +13,25 @@
 namespace veq::report::svg {
 
 std::string coord(double px) {
-  if (!std::isfinite(px)) px = 0.0;
-  // std::to_chars rounds exactly, like "{:.2f}", at a fraction of the cost (thousands per page).
-  char buf[64];
-  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, px, std::chars_format::fixed, 2);
-  std::string s = ec == std::errc() ? std::string(buf, end) : fmt::format("{:.2f}", px);
-  if (s == "-0.00") s = "0.00";
+  std::string s;
+  append_coord(s, px);
   return s;
+}
+
+void append_coord(std::string& out, double px) {
+  // Hundredths by integer arithmetic: a page holds thousands of coordinates and
+  // this is many times faster than formatting each double.
+  if (!std::isfinite(px)) px = 0.0;
+  const long long h = std::llround(std::clamp(px, -1e12, 1e12) * 100.0);
+  const unsigned long long a = h < 0 ? static_cast<unsigned long long>(-h) : static_cast<unsigned long long>(h);
+  if (h < 0) out += '-';
+  char buf[24];
+  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, a / 100);
+  (void)ec;
+  out.append(buf, end);
+  out += '.';
+  out += static_cast<char>('0' + (a / 10) % 10);
+  out += static_cast<char>('0' + a % 10);
 }
 
 Ticks nice_ticks(double lo, double hi, int count) {
@@ -90,7 +102,7 @@ void Plot::polyline(std::span<const std::pair<double, double>> points, const Sty
   std::string pts;
   std::size_t n = 0;
   auto flush = [&] {
-    if (n >= 2) m_body += fmt::format("<polyline points=\"{}\"{}/>\n", pts, attributes(style));
+    if (n >= 2) m_body += "<polyline points=\"" + pts + "\"" + attributes(style) + "/>\n";
     pts.clear();
     n = 0;
   };
@@ -100,7 +112,9 @@ void Plot::polyline(std::span<const std::pair<double, double>> points, const Sty
       continue;
     }
     if (n > 0) pts += ' ';
-    pts += coord(clamp_px(x_px(x), m_w)) + "," + coord(clamp_px(y_px(y), m_h));
+    append_coord(pts, clamp_px(x_px(x), m_w));
+    pts += ',';
+    append_coord(pts, clamp_px(y_px(y), m_h));
     ++n;
   }
   flush();
@@ -108,22 +122,23 @@ void Plot::polyline(std::span<const std::pair<double, double>> points, const Sty
 
 void Plot::dots(std::span<const std::pair<double, double>> points, double radius_px, const Style& style) {
   // One path of circles (two arcs each) keeps the output compact for hundreds of readings.
+  std::string r, arcs;
+  append_coord(r, radius_px);
+  arcs = "a" + r + " " + r + " 0 1 0 " + coord(2 * radius_px) + " 0a" + r + " " + r + " 0 1 0 " +
+         coord(-2 * radius_px) + " 0";
   std::string d;
+  d.reserve(points.size() * (arcs.size() + 16));
   for (const auto& [x, y] : points) {
     if (!std::isfinite(x) || !std::isfinite(y)) continue;
     const double px = x_px(x), py = y_px(y);
     if (px < -radius_px || px > m_w + radius_px || py < -radius_px || py > m_h + radius_px) continue;
-    d += fmt::format("M{} {}a{} {} 0 1 0 {} 0a{} {} 0 1 0 {} 0",
-                     coord(px - radius_px),
-                     coord(py),
-                     coord(radius_px),
-                     coord(radius_px),
-                     coord(2 * radius_px),
-                     coord(radius_px),
-                     coord(radius_px),
-                     coord(-2 * radius_px));
+    d += 'M';
+    append_coord(d, px - radius_px);
+    d += ' ';
+    append_coord(d, py);
+    d += arcs;
   }
-  if (!d.empty()) m_body += fmt::format("<path d=\"{}\"{}/>\n", d, attributes(style));
+  if (!d.empty()) m_body += "<path d=\"" + d + "\"" + attributes(style) + "/>\n";
 }
 
 void Plot::segment(double x0, double y0, double x1, double y1, const Style& style) {
