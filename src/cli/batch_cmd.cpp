@@ -167,7 +167,7 @@ void add_batch(CLI::App& app, Action& action) {
                          good,
                          s.count(batch::RunStatus::flagged),
                          s.failed());
-      out << fmt::format("  processed {}, kept unchanged {}, in {:.1f} s\n", s.processed, s.resumed, s.elapsed_s);
+      out << fmt::format("  processed {}, kept unchanged {}, in {:.2f} s\n", s.processed, s.resumed, s.elapsed_s);
       if (s.replaced > 0) {
         out << fmt::format("  {} earlier result(s) replaced: their file, method, options or veq version changed{}\n",
                            s.replaced,

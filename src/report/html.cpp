@@ -192,10 +192,13 @@ std::string section_results(const Analysis& a) {
     for (const auto* b :
          {a.gran[i].before ? &*a.gran[i].before : nullptr, a.gran[i].after ? &*a.gran[i].after : nullptr}) {
       if (b == nullptr || !b->pKa) continue;
-      pka += fmt::format("<li>before endpoint {}: pKa {:.2f}{}{}</li>\n",
+      // Shown to the precision its standard error supports (two significant digits of it).
+      const int d = b->pKa_std_error ? decimals_for(*b->pKa_std_error) : 2;
+      pka += fmt::format("<li>before endpoint {}: pKa {:.{}f}{}{}</li>\n",
                          eps[i].index,
                          *b->pKa,
-                         b->pKa_std_error ? fmt::format(" &#177; {:.2f}", *b->pKa_std_error) : std::string(),
+                         d,
+                         b->pKa_std_error ? fmt::format(" &#177; {:.{}f}", *b->pKa_std_error, d) : std::string(),
                          b->pKa_activity_corrected ? " (corrected for activity)" : " (not corrected for activity)");
     }
   }

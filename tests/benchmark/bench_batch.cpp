@@ -1,7 +1,7 @@
 // SPDX-License-Identifier: MIT
 // Batch benchmark: simulated runs of mixed kinds; time per stage, runs per second of `veq batch`, peak memory.
 //
-// Usage: veq_bench_batch [--runs N] [--dir DIR] [--jobs-max J]
+// Usage: veq_bench_batch [--runs N] [--dir DIR] [--keep]
 // Generates N runs (default 10000, 150-400 readings each, mixed kinds; tests/support/simulated_runs.hpp)
 // into DIR/in once, then
 //   1. times each stage in this process on one thread over every run (read, ingest, prepare,
@@ -10,6 +10,10 @@
 //      them, into fresh output folders, and once more to resume (nothing to do); wall time from the
 //      parent, peak resident memory of the child from wait4();
 //   3. runs `veq batch` on a tenth of the runs for peak memory against the number of runs.
+// Output folders are new each time and removed at the end (--keep keeps them): ext4 creates files
+// slowly for a few minutes after many were deleted nearby (it avoids reusing recently freed inodes),
+// so deleting a previous output just before a measurement would time the file system, not veq.
+// Leave a few minutes between two benchmarks for the same reason.
 #include <fcntl.h>
 #include <fmt/format.h>
 #include <spawn.h>
@@ -191,6 +195,7 @@ int main(int argc, char** argv) {
     }
   }
   const fs::path in = dir / "in", small = dir / "in_tenth";
+  const fs::path outputs = dir / fmt::format("outputs-{}", ::getpid());
   generate(in, n);
   generate(small, n / 10);
   std::vector<fs::path> files;
@@ -245,29 +250,31 @@ int main(int argc, char** argv) {
     return rate;
   };
   for (const unsigned jobs : {1u, 2u}) {
-    const fs::path out = dir / fmt::format("out_nohtml_{}", jobs);
-    fs::remove_all(out);
+    const fs::path out = outputs / fmt::format("nohtml_{}", jobs);
     const Child c = run_veq({"batch", in.string(), "--out", out.string(), "--jobs", std::to_string(jobs), "--no-html"});
     const double r = line(fmt::format("{} worker(s), JSON + summaries", jobs), c, files.size());
     (jobs == 1 ? rate1 : rate2) = r;
   }
   for (const unsigned jobs : {1u, 2u}) {
-    const fs::path out = dir / fmt::format("out_html_{}", jobs);
-    fs::remove_all(out);
+    const fs::path out = outputs / fmt::format("html_{}", jobs);
     const Child c = run_veq({"batch", in.string(), "--out", out.string(), "--jobs", std::to_string(jobs)});
     line(fmt::format("{} worker(s), with HTML reports", jobs), c, files.size());
   }
   {
-    const Child c = run_veq({"batch", in.string(), "--out", (dir / "out_html_2").string(), "--jobs", "2"});
+    const Child c = run_veq({"batch", in.string(), "--out", (outputs / "html_2").string(), "--jobs", "2"});
     line("2 workers, resumed (nothing to redo)", c, files.size());
   }
   {
-    const fs::path out = dir / "out_tenth";
-    fs::remove_all(out);
+    const fs::path out = outputs / "tenth";
     const Child c = run_veq({"batch", small.string(), "--out", out.string(), "--jobs", "2", "--no-html"});
     line(fmt::format("2 workers, {} runs (a tenth)", n / 10), c, n / 10);
   }
   std::cout << fmt::format("\nScaling 1 -> 2 workers: {:.2f}x\n", rate2 / rate1);
-  std::cout << fmt::format("Command: scripts/bench batch --runs {}   (runs and outputs in {})\n", n, dir.string());
+  std::cout << fmt::format("Command: scripts/bench batch --runs {}   (simulated runs kept in {})\n", n, in.string());
+  if (keep) {
+    std::cout << "Outputs kept in " << outputs.string() << "\n";
+  } else {
+    fs::remove_all(outputs);
+  }
   return 0;
 }
