@@ -1,6 +1,7 @@
 // SPDX-License-Identifier: MIT
 // The real `veq batch` as a child process: SIGKILL at random moments, SIGTERM, exit codes, quiet stderr.
 #include <fcntl.h>
+#include <stdlib.h>
 #include <signal.h>
 #include <spawn.h>
 #include <sys/wait.h>
@@ -221,6 +222,39 @@ TEST_CASE("veq batch: exit codes, output, and a quiet stderr when it is not a te
   const auto n1 = nlohmann::json::parse(slurp(root / "s1" / "summary.json"))["runs"].size();
   const auto n2 = nlohmann::json::parse(slurp(root / "s2" / "summary.json"))["runs"].size();
   CHECK(n1 + n2 == 3);
+}
+
+TEST_CASE("progress on stderr when it is a terminal: done/total, rate, time left", "[batch][cli]") {
+  const fs::path root = veq::test::fresh_dir("batch_tty");
+  const fs::path in = make_input(root, 8);
+  const int master = ::posix_openpt(O_RDWR | O_NOCTTY);
+  REQUIRE(master >= 0);
+  REQUIRE(::grantpt(master) == 0);
+  REQUIRE(::unlockpt(master) == 0);
+  const std::string slave = ::ptsname(master);
+  std::vector<std::string> all = {VEQ_BINARY, "batch", in.string(), "--out", (root / "out").string()};
+  std::vector<char*> argv;
+  for (auto& a : all) argv.push_back(a.data());
+  argv.push_back(nullptr);
+  posix_spawn_file_actions_t fa;
+  posix_spawn_file_actions_init(&fa);
+  posix_spawn_file_actions_addopen(&fa, STDOUT_FILENO, "/dev/null", O_WRONLY, 0);
+  posix_spawn_file_actions_addopen(&fa, STDERR_FILENO, slave.c_str(), O_RDWR | O_NOCTTY, 0);
+  pid_t pid = 0;
+  REQUIRE(posix_spawn(&pid, VEQ_BINARY, &fa, nullptr, argv.data(), environ) == 0);
+  posix_spawn_file_actions_destroy(&fa);
+  const Exit e = wait_for(pid);
+  CHECK(e.code == 1);  // the two bad files
+  std::string seen;
+  char buf[4096];
+  ::fcntl(master, F_SETFL, O_NONBLOCK);
+  for (ssize_t n; (n = ::read(master, buf, sizeof buf)) > 0;) seen.append(buf, static_cast<std::size_t>(n));
+  ::close(master);
+  INFO(seen);
+  // The last progress line is drawn once the runs are done.
+  CHECK(seen.find("10/10 runs") != std::string::npos);
+  CHECK(seen.find("runs/s") != std::string::npos);
+  CHECK(seen.find("left") != std::string::npos);
 }
 
 TEST_CASE("veq analyze --html writes the report atomically and never replaces one without --force", "[cli][report]") {
