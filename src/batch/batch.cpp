@@ -2,26 +2,19 @@
 // The batch runner: a pool of workers over a sorted listing, per-run manifests, summaries rebuilt from them.
 #include "veq/batch/batch.hpp"
 
-#include <fcntl.h>
 #include <fmt/format.h>
-#include <sys/file.h>
-#include <sys/stat.h>
-#include <unistd.h>
+#include <unistd.h>  // syncfs
 
 #include <algorithm>
 #include <atomic>
-#include <cerrno>
-#include <charconv>
 #include <chrono>
-#include <cmath>
 #include <condition_variable>
-#include <cstring>
-#include <ctime>
 #include <mutex>
 #include <new>
-#include <nlohmann/json.hpp>
 #include <thread>
 
+#include "batch/files.hpp"
+#include "batch/manifest.hpp"
 #include "veq/core/atomic_file.hpp"
 #include "veq/report/html.hpp"
 #include "veq/report/json.hpp"
@@ -30,7 +23,7 @@
 namespace veq::batch {
 
 namespace fs = std::filesystem;
-using nlohmann::ordered_json;
+using namespace detail;  // NOLINT(google-build-using-namespace): the runner's own helpers
 using Clock = std::chrono::steady_clock;
 
 namespace {
@@ -90,188 +83,8 @@ namespace {
 
 // ---- small helpers -----------------------------------------------------------
 
-ordered_json rounded(double x, int decimals) {
-  if (!std::isfinite(x)) return nullptr;
-  const double scale = std::pow(10.0, decimals);
-  double r = std::round(x * scale) / scale;
-  if (r == 0.0) r = 0.0;
-  return r;
-}
-
 double seconds_since(Clock::time_point t) {
   return std::chrono::duration<double>(Clock::now() - t).count();
-}
-
-int decimals_for(double u) {
-  if (!(u > 0) || !std::isfinite(u)) return 3;
-  return std::clamp(1 - static_cast<int>(std::floor(std::log10(u))), 2, 6);
-}
-
-std::string local_time_now() {
-  const auto now = std::chrono::system_clock::now();
-  const std::time_t t = std::chrono::system_clock::to_time_t(now);
-  std::tm tm{};
-  localtime_r(&t, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%d %H:%M:%S", &tm);
-  const auto ms = std::chrono::duration_cast<std::chrono::milliseconds>(now.time_since_epoch()).count() % 1000;
-  return fmt::format("{}.{:03d}", buf, static_cast<int>(ms));
-}
-
-// The folder's lock and ownership mark, held for the whole batch; the kernel
-// releases it when the process ends, however it ends.
-class FolderLock {
- public:
-  explicit FolderLock(const fs::path& dir) {
-    const fs::path p = dir / kLockFile;
-    m_fd = ::open(p.c_str(), O_RDWR | O_CREAT | O_CLOEXEC, 0644);
-    if (m_fd < 0) {
-      throw InputError({dir.string(), 0, 0},
-                       std::string("cannot use the output folder: ") + std::strerror(errno),
-                       "check that it is writable");
-    }
-    if (::flock(m_fd, LOCK_EX | LOCK_NB) != 0) {
-      ::close(m_fd);
-      throw InputError({dir.string(), 0, 0},
-                       "another veq batch is writing to this output folder",
-                       "wait for it to finish, or choose another --out folder");
-    }
-  }
-  FolderLock(const FolderLock&) = delete;
-  FolderLock& operator=(const FolderLock&) = delete;
-  ~FolderLock() { ::close(m_fd); }
-  [[nodiscard]] int fd() const { return m_fd; }
-
- private:
-  int m_fd = -1;
-};
-
-// batch.log: appended a whole line per write, so a killed batch leaves a log
-// that ends at its last complete line. The only output with times in it.
-class Log {
- public:
-  explicit Log(const fs::path& path) { m_fd = ::open(path.c_str(), O_WRONLY | O_CREAT | O_APPEND | O_CLOEXEC, 0644); }
-  Log(const Log&) = delete;
-  Log& operator=(const Log&) = delete;
-  ~Log() {
-    if (m_fd >= 0) ::close(m_fd);
-  }
-  void line(const std::string& text) {
-    if (m_fd < 0) return;
-    std::string l = local_time_now() + "  " + text;
-    std::replace(l.begin(), l.end(), '\n', ' ');
-    l += '\n';
-    const std::lock_guard<std::mutex> lock(m_mutex);
-    const ssize_t n = ::write(m_fd, l.data(), l.size());
-    (void)n;  // a log that cannot be written never stops the batch
-  }
-
- private:
-  int m_fd = -1;
-  std::mutex m_mutex;
-};
-
-// A source file read whole, or why it could not be.
-struct Source {
-  enum class State { ok, missing, too_large, unreadable } state = State::ok;
-  std::string bytes;
-  std::uint64_t size = 0;
-  std::string message;
-};
-
-Source read_source(const fs::path& path, std::uint64_t max_bytes) {
-  Source s;
-  // O_NONBLOCK: a file replaced by a FIFO after listing must not hang a worker.
-  const int fd = ::open(path.c_str(), O_RDONLY | O_NONBLOCK | O_CLOEXEC);
-  if (fd < 0) {
-    const int err = errno;
-    s.state = err == ENOENT || err == ENOTDIR ? Source::State::missing : Source::State::unreadable;
-    s.message = err == ENOENT || err == ENOTDIR ? "the file was listed but no longer exists"
-                                                : std::string("cannot open the file: ") + std::strerror(err);
-    return s;
-  }
-  struct stat st {};
-  if (::fstat(fd, &st) != 0 || !S_ISREG(st.st_mode)) {
-    ::close(fd);
-    s.state = Source::State::missing;
-    s.message = "the file was listed but is no longer a regular file";
-    return s;
-  }
-  s.size = static_cast<std::uint64_t>(st.st_size);
-  if (s.size > max_bytes) {
-    ::close(fd);
-    s.state = Source::State::too_large;
-    s.message = fmt::format(
-        "file is {:.1f} MiB; the limit is {} MiB", static_cast<double>(s.size) / 1048576.0, max_bytes >> 20);
-    return s;
-  }
-  // Read the size fstat gave, then probe for more: a file still growing is read
-  // on up to the limit and no further.
-  s.bytes.resize(static_cast<std::size_t>(s.size));
-  std::size_t got = 0;
-  char probe[4096];
-  for (;;) {
-    const bool into_buffer = got < s.bytes.size();
-    const ssize_t n =
-        into_buffer ? ::read(fd, s.bytes.data() + got, s.bytes.size() - got) : ::read(fd, probe, sizeof probe);
-    if (n < 0 && errno == EINTR) continue;
-    if (n < 0) {
-      const int err = errno;
-      ::close(fd);
-      s.state = Source::State::unreadable;
-      s.message = std::string("read error: ") + std::strerror(err);
-      return s;
-    }
-    if (n == 0) break;
-    if (!into_buffer) {
-      s.bytes.resize(got);
-      s.bytes.append(probe, static_cast<std::size_t>(n));
-    }
-    got += static_cast<std::size_t>(n);
-    if (got > max_bytes) break;
-  }
-  ::close(fd);
-  s.bytes.resize(got);
-  s.size = got;
-  if (got > max_bytes) {
-    s.state = Source::State::too_large;
-    s.message = fmt::format("file grew past the {} MiB limit while being read", max_bytes >> 20);
-  }
-  return s;
-}
-
-std::string hash_of_file(const fs::path& p) {
-  Source s = read_source(p, std::uint64_t{1} << 34);
-  if (s.state != Source::State::ok) return {};
-  return hash_hex(hash64(s.bytes));
-}
-
-std::optional<ordered_json> read_json(const fs::path& p) {
-  Source s = read_source(p, std::uint64_t{16} << 20);
-  if (s.state != Source::State::ok) return std::nullopt;
-  ordered_json j = ordered_json::parse(s.bytes, nullptr, false);
-  if (j.is_discarded() || !j.is_object()) return std::nullopt;
-  return j;
-}
-
-// Everything except the per-run callback that changes a result, as text.
-std::string ingest_fingerprint(const ingest::IngestOptions& o) {
-  auto opt = [](const std::optional<std::size_t>& v) { return v ? std::to_string(*v) : std::string("-"); };
-  return fmt::format(
-      "max_file_bytes={};max_line_bytes={};columns={},{},{},{};volume_unit={};signal={};sort={};"
-      "pH={:.17g}..{:.17g};mV={:.17g}",
-      o.max_file_bytes,
-      o.max_line_bytes,
-      opt(o.columns.volume),
-      opt(o.columns.signal),
-      opt(o.columns.temperature),
-      opt(o.columns.time),
-      o.volume_unit.value_or("-"),
-      o.signal ? std::string(to_string(*o.signal)) : std::string("-"),
-      o.sort_by_volume,
-      o.min_pH,
-      o.max_pH,
-      o.max_abs_mV);
 }
 
 // ---- one run -----------------------------------------------------------------
@@ -297,143 +110,6 @@ struct Context {
   std::string settings;  // settings identity plus the ingest options
   Log& log;
 };
-
-// A thumbnail in the manifest: "x,y x,y ..." in pixels to 0.1 px (one string
-// parses far faster than an array of arrays when 10,000 manifests are read back).
-ordered_json thumbnail_json(const report::Thumbnail& t) {
-  std::string pts, eps;
-  for (const auto& [x, y] : t.points_px) pts += fmt::format("{}{:.1f},{:.1f}", pts.empty() ? "" : " ", x, y);
-  for (const double x : t.endpoints_px) eps += fmt::format("{}{:.1f}", eps.empty() ? "" : " ", x);
-  return {{"points", pts}, {"endpoints", eps}};
-}
-
-// Numbers separated by spaces (and commas within a point); nullopt on anything else.
-std::optional<std::vector<double>> numbers(const std::string& text) {
-  std::vector<double> v;
-  const char* p = text.data();
-  const char* end = p + text.size();
-  while (p < end) {
-    double x = 0;
-    const auto [q, ec] = std::from_chars(p, end, x);
-    if (ec != std::errc() || !std::isfinite(x)) return std::nullopt;
-    v.push_back(x);
-    p = q;
-    if (p < end && (*p == ' ' || *p == ',')) ++p;
-  }
-  return v;
-}
-
-// Read back from a manifest; the numbers are checked, and the SVG is drawn from them anew.
-std::optional<report::Thumbnail> thumbnail_from(const ordered_json& j) {
-  if (!j.is_object() || !j.contains("points") || !j["points"].is_string()) return std::nullopt;
-  const auto pts = numbers(j["points"].get<std::string>());
-  if (!pts || pts->size() % 2 != 0) return std::nullopt;
-  report::Thumbnail t;
-  for (std::size_t i = 0; i + 1 < pts->size(); i += 2) t.points_px.emplace_back((*pts)[i], (*pts)[i + 1]);
-  if (j.contains("endpoints") && j["endpoints"].is_string()) {
-    if (const auto eps = numbers(j["endpoints"].get<std::string>())) t.endpoints_px = *eps;
-  }
-  return t;
-}
-
-// What the summaries need of an analysed run.
-ordered_json analysed_row(const Analysis& a, RunStatus& status) {
-  const auto& eps = a.endpoints.endpoints;
-  std::string result, flags, error;
-  ordered_json list = ordered_json::array();
-  const bool ph = a.curve.signal == SignalKind::ph;
-  for (const auto& e : eps) {
-    const int d = decimals_for(e.uncertainty_mL);
-    result += fmt::format("{}{:.{}f} +/- {:.{}f} mL", result.empty() ? "" : "; ", e.volume_mL, d, e.uncertainty_mL, d);
-    if (!e.flags.empty()) {
-      flags += fmt::format("{}EP{}", flags.empty() ? "" : "; ", e.index);
-      for (const auto& f : e.flags) flags += " " + f;
-    }
-    ordered_json ej;
-    ej["index"] = e.index;
-    ej["volume_mL"] = rounded(e.volume_mL, 6);
-    ej["uncertainty_mL"] = rounded(e.uncertainty_mL, 6);
-    ej[ph ? "pH" : "mV"] = rounded(e.value, ph ? 4 : 3);
-    ej["flags"] = e.flags;
-    list.push_back(ej);
-  }
-  if (eps.empty()) {
-    status = RunStatus::no_endpoint;
-    error = "no endpoint found";
-    for (const auto& w : a.endpoints.warnings) {
-      if (w.code == "no_endpoint" || w.code == "too_few_readings") error = w.message;
-    }
-  } else {
-    status = flags.empty() ? RunStatus::ok : RunStatus::flagged;
-  }
-  ordered_json row;
-  row["id"] = a.run.facts.sample_id;
-  row["status"] = std::string(to_string(status));
-  row["endpoints"] = list;
-  row["result"] = result;
-  row["flags"] = flags;
-  row["error"] = error;
-  return row;
-}
-
-ordered_json failed_row(RunStatus status, const std::string& error) {
-  ordered_json row;
-  row["id"] = "";
-  row["status"] = std::string(to_string(status));
-  row["endpoints"] = ordered_json::array();
-  row["result"] = "";
-  row["flags"] = "";
-  row["error"] = error;
-  return row;
-}
-
-std::string error_text(const InputError& e) {
-  std::string s = e.what();
-  if (!e.hint().empty()) s += " (hint: " + e.hint() + ")";
-  return s;
-}
-
-// Whether an earlier manifest still stands for this run: same file, same
-// source bytes, method, settings, veq version and report choice, and every
-// output it lists present with the bytes it recorded.
-bool still_valid(
-    const ordered_json& m, const Context& cx, const Task& t, const std::string& source_hash, std::uint64_t size) {
-  auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
-  if (str("schema") != kManifestSchema || str("veq_version") != version() || str("file") != t.rel) return false;
-  if (str("method") != cx.opt.method_identity || str("settings") != cx.settings) return false;
-  if (!m.contains("html") || !m["html"].is_boolean() || m["html"].get<bool>() != cx.opt.html_reports) return false;
-  if (!m.contains("source") || !m["source"].is_object()) return false;
-  const auto& src = m["source"];
-  if (!src.contains("bytes") || !src["bytes"].is_number_unsigned() || src["bytes"].get<std::uint64_t>() != size)
-    return false;
-  if (!src.contains("xxh3") || !src["xxh3"].is_string() || src["xxh3"].get<std::string>() != source_hash) return false;
-  if (!m.contains("row") || !m["row"].is_object() || !m["row"].contains("status") ||
-      !status_from_string(m["row"]["status"].is_string() ? m["row"]["status"].get<std::string>() : "")) {
-    return false;
-  }
-  if (!m.contains("outputs") || !m["outputs"].is_object()) return false;
-  for (const auto& [kind, o] : m["outputs"].items()) {
-    (void)kind;
-    if (!o.is_object() || !o.contains("name") || !o["name"].is_string() || !o.contains("xxh3")) return false;
-    const std::string name = o["name"].get<std::string>();
-    if (name != kResultJson && name != kReportHtml) return false;
-    if (hash_of_file(cx.runs_dir / t.stem / name) != o["xxh3"].get<std::string>()) return false;
-  }
-  return true;
-}
-
-// Removes temporaries a killed batch left in dir (not recursive); returns how many.
-std::size_t sweep_temporaries(const fs::path& dir) {
-  std::error_code ec;
-  std::size_t n = 0;
-  for (fs::directory_iterator it(dir, ec), end; !ec && it != end; it.increment(ec)) {
-    const std::string name = it->path().filename().string();
-    if (name.find(io::kTemporaryMarker) == std::string::npos) continue;
-    std::error_code rec;
-    if (fs::remove(it->path(), rec)) ++n;
-  }
-  return n;
-}
 
 void remove_stale_outputs(const Context& cx, const Task& t) {
   std::error_code ec;
@@ -462,7 +138,8 @@ Outcome process(const Context& cx, const Task& t) {
   const std::string source_hash = src.state == Source::State::ok ? hash_hex(hash64(src.bytes)) : std::string();
 
   const std::optional<ordered_json> earlier = read_json(manifest_path);
-  if (earlier && !cx.opt.force && still_valid(*earlier, cx, t, source_hash, src.size)) {
+  const ManifestKey key{t.rel, source_hash, src.size, cx.opt.method_identity, cx.settings, cx.opt.html_reports};
+  if (earlier && !cx.opt.force && still_valid(*earlier, key, run_dir)) {
     out.status = *status_from_string((*earlier)["row"]["status"].get<std::string>());
     out.manifest = true;
     out.resumed = true;
@@ -558,51 +235,6 @@ void check_output_folder(const BatchOptions& o) {
                      "cannot create the output folder: " + ec.message(),
                      "check the path and its permissions");
   }
-}
-
-// summary.json is written a run at a time; each entry is indented to sit in the "runs" array.
-std::string indent(const std::string& text, std::string_view by) {
-  std::string out(by);
-  for (const char c : text) {
-    out += c;
-    if (c == '\n') out += by;
-  }
-  return out;
-}
-
-report::SummaryRow row_from(const ordered_json& row, const Task& t, const ordered_json* manifest) {
-  auto s = [&](const char* k) {
-    return row.contains(k) && row[k].is_string() ? row[k].get<std::string>() : std::string();
-  };
-  report::SummaryRow r;
-  r.id = s("id");
-  r.file = t.rel;
-  r.status = s("status");
-  r.endpoints =
-      row.contains("endpoints") && row["endpoints"].is_array() ? static_cast<int>(row["endpoints"].size()) : 0;
-  r.result = s("result");
-  r.flags = s("flags");
-  r.error = s("error");
-  if (manifest != nullptr && manifest->contains("outputs") && (*manifest)["outputs"].contains("html")) {
-    r.report_href = fmt::format("{}/{}/{}", kRunsFolder, t.stem, kReportHtml);
-  }
-  if (manifest != nullptr && manifest->contains("thumbnail")) r.thumbnail = thumbnail_from((*manifest)["thumbnail"]);
-  return r;
-}
-
-ordered_json json_entry(const ordered_json& row, const Task& t, const ordered_json* manifest) {
-  ordered_json e;
-  e["file"] = t.rel;
-  for (const char* k : {"id", "status", "endpoints", "result", "flags", "error"})
-    e[k] = row.contains(k) ? row[k] : nullptr;
-  e["report"] = nullptr;
-  e["json"] = nullptr;
-  if (manifest != nullptr && manifest->contains("outputs")) {
-    const auto& o = (*manifest)["outputs"];
-    if (o.contains("html")) e["report"] = fmt::format("{}/{}/{}", kRunsFolder, t.stem, kReportHtml);
-    if (o.contains("json")) e["json"] = fmt::format("{}/{}/{}", kRunsFolder, t.stem, kResultJson);
-  }
-  return e;
 }
 
 }  // namespace
@@ -800,10 +432,11 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
                          o.status == RunStatus::not_run ? "not processed: the batch was stopped first" : o.error);
       }
       const ordered_json* mp = manifest ? &*manifest : nullptr;
-      const report::SummaryRow r = row_from(row, t, mp);
+      const report::SummaryRow r = row_from(row, t.rel, t.stem, mp);
       p.csv = report::summary_csv_row(r);
       p.json = std::string(i == 0 ? "\n" : ",\n") +
-               indent(json_entry(row, t, mp).dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "    ");
+               indent(json_entry(row, t.rel, t.stem, mp).dump(2, ' ', false, nlohmann::json::error_handler_t::replace),
+                      "    ");
       p.index = report::index_html_row(r, i + 1);
       if (const auto st = status_from_string(r.status); st && is_failure(*st)) {
         std::string e = r.error;
@@ -820,7 +453,8 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
       p.csv = report::summary_csv_row(r);
       p.json =
           std::string(i == 0 ? "\n" : ",\n") +
-          indent(json_entry(row, t, nullptr).dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "    ");
+          indent(json_entry(row, t.rel, t.stem, nullptr).dump(2, ' ', false, nlohmann::json::error_handler_t::replace),
+                 "    ");
       p.index = report::index_html_row(r, i + 1);
       p.errors = r.error + "  [internal_error]\n";
     }
