@@ -197,7 +197,11 @@ Outcome process(const Context& cx, const Task& t) {
     }
     if (json_text.empty()) remove_stale_outputs(cx, t);
     m["outputs"] = outputs;
-    io::write_file_atomically(manifest_path, m.dump(1) + "\n", true, io::Sync::deferred);
+    // Names and metadata may hold bytes that are not UTF-8: replaced (U+FFFD) in JSON, never a failure.
+    io::write_file_atomically(manifest_path,
+                              m.dump(1, ' ', false, nlohmann::json::error_handler_t::replace) + "\n",
+                              true,
+                              io::Sync::deferred);
   } catch (const InputError& e) {
     out.status = RunStatus::output_error;
     out.error = t.rel + ": " + error_text(e);

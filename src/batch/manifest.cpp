@@ -33,6 +33,12 @@ std::optional<std::vector<double>> numbers(const std::string& text) {
   return v;
 }
 
+// A string as it reads back from JSON written with invalid UTF-8 replaced.
+std::string as_written(const std::string& text) {
+  const std::string dumped = ordered_json(text).dump(-1, ' ', false, nlohmann::json::error_handler_t::replace);
+  return ordered_json::parse(dumped).get<std::string>();
+}
+
 }  // namespace
 
 ordered_json rounded(double x, int decimals) {
@@ -148,7 +154,9 @@ std::string error_text(const InputError& e) {
 
 bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& run_dir) {
   auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
-  if (str("schema") != kManifestSchema || str("veq_version") != version() || str("file") != key.file) return false;
+  if (str("schema") != kManifestSchema || str("veq_version") != version() || str("file") != as_written(key.file)) {
+    return false;
+  }
   if (str("method") != key.method || str("settings") != key.settings) return false;
   if (!m.contains("html") || !m["html"].is_boolean() || m["html"].get<bool>() != key.html) return false;
   if (!m.contains("source") || !m["source"].is_object()) return false;

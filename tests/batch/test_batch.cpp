@@ -62,7 +62,8 @@ Mixed mixed_folder(const std::string& name) {
   write_file(m.in / "formula_id.csv", good_log("Sample: =HYPERLINK(\"http://example.invalid\",\"click\")\n"));
   write_file(m.in / "-minus.csv", good_log("Sample: @SUM(A1:A2)\n"));
   write_file(m.in / "+plus.csv", good_log("Sample: +1\n"));
-  m.good.insert({"markup.csv", "formula_id.csv", "-minus.csv", "+plus.csv"});
+  write_file(m.in / "caf\xE9 latin-1 name.csv", good_log("Sample: caf\xE9\n"));  // not UTF-8
+  m.good.insert({"markup.csv", "formula_id.csv", "-minus.csv", "+plus.csv", "caf\xEF\xBF\xBD latin-1 name.csv"});
   write_file(m.in / "vanish.csv", good_log("Sample: V\n"));
   write_file(m.in / "broken_cell.csv", "Volume (mL);pH\n0;3.1\n1;abc\n2;8.7\n");
   write_file(m.in / "empty.csv", "");
@@ -217,7 +218,8 @@ TEST_CASE("same folder, same outputs byte for byte, whatever the number of worke
 TEST_CASE("resuming: unchanged runs are kept, changed ones redone, outputs identical", "[batch]") {
   const fs::path root = veq::test::fresh_dir("batch_resume");
   const fs::path in = root / "in", out = root / "out";
-  add_simulated(in, 8);
+  add_simulated(in, 7);
+  write_file(in / "r\xE9sum\xE9.csv", good_log("Sample: \xE9\n"));  // a name that is not UTF-8 resumes too
   write_file(in / "bad.csv", "");
   const auto first = veq::batch::run_batch(options_for(in, out));
   const auto clean = outputs(out);
