@@ -160,9 +160,8 @@ Outcome process(const Context& cx, const Task& t) {
   RunStatus status = RunStatus::ok;
   try {
     if (src.state != Source::State::ok) throw InputError({t.rel, 0, 0}, src.message);
-    src.bytes.shrink_to_fit();
     Run run = ingest::parse_run(src.bytes, t.rel, cx.opt.ingest);
-    std::string().swap(src.bytes);
+    std::string().swap(src.bytes);  // the bytes are not needed during the analysis
     const AnalyzeOptions ao = cx.opt.configure ? cx.opt.configure(run) : AnalyzeOptions{};
     const Analysis a = analyze(std::move(run), ao);
     json_text = report::to_json(a);
