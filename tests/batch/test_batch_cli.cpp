@@ -1,9 +1,9 @@
 // SPDX-License-Identifier: MIT
 // The real `veq batch` as a child process: SIGKILL at random moments, SIGTERM, exit codes, quiet stderr.
 #include <fcntl.h>
-#include <stdlib.h>
 #include <signal.h>
 #include <spawn.h>
+#include <stdlib.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
