@@ -17,6 +17,7 @@
 #include "veq/ingest/reader.hpp"
 #include "veq/method/replicates.hpp"
 #include "veq/method/titer.hpp"
+#include "veq/report/html.hpp"
 #include "veq/report/json.hpp"
 #include "veq/report/text.hpp"
 
@@ -88,6 +89,7 @@ void add_analyze(CLI::App& app, Action& action) {
     std::vector<std::string> runs;
     std::string json;
     std::string titer_out;
+    std::string html;
     bool force = false;
     bool quiet = false;
     RunOptions opt;
@@ -98,6 +100,7 @@ void add_analyze(CLI::App& app, Action& action) {
       ->required();
   cmd->add_option("--json", st->json, "Also write the result as JSON to FILE, or '-' for standard output");
   cmd->add_option("--titer-out", st->titer_out, "With a standardisation method: write the titrant's concentration to FILE");
+  cmd->add_option("--html", st->html, "Also write the readable report (HTML with plots) to FILE");
   cmd->add_flag("--force", st->force, "Replace an existing output file");
   cmd->add_flag("-q,--quiet", st->quiet, "No summary on standard output");
   add_run_options(cmd, st->opt);
@@ -173,6 +176,10 @@ void add_analyze(CLI::App& app, Action& action) {
         }
         io::write_file_atomically(st->titer_out, method::titer_to_toml(rec), st->force);
         if (!st->quiet && !json_stdout) out << "  Titer written to " << st->titer_out << "\n";
+      }
+      if (!st->html.empty()) {
+        if (!single) throw InputError({"--html", 0, 0}, "--html writes the report of one run", "give one RUN, or use veq batch");
+        if (!done.empty()) io::write_file_atomically(st->html, report::to_html(done.front()), st->force);
       }
       if (bad_input) return kExitUsage;
       return failed ? kExitFailed : kExitOk;

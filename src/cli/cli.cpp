@@ -25,6 +25,7 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
   add_method(app, action);
   add_serve(app, action);
   add_simulate(app, action);
+  add_batch(app, action);
 
   if (args.size() <= 1) {
     // No command at all: show what there is, as a usage error.

@@ -19,5 +19,6 @@ void add_crosscheck(CLI::App& app, Action& action);
 void add_method(CLI::App& app, Action& action);
 void add_serve(CLI::App& app, Action& action);
 void add_simulate(CLI::App& app, Action& action);
+void add_batch(CLI::App& app, Action& action);
 
 }  // namespace veq::cli

@@ -5,6 +5,8 @@
 #include <cmath>
 #include <cstdio>
 
+#include <fmt/format.h>
+
 #include "veq/core/constants.hpp"
 #include "veq/core/error.hpp"
 #include "veq/signal/prepare.hpp"
@@ -120,6 +122,20 @@ void apply_facts(const RunOptions& o, Run& run) {
   if (o.titrant == "acid") run.facts.titrant_kind = TitrantKind::acid;
   if (o.titrant == "base") run.facts.titrant_kind = TitrantKind::base;
   if (o.temperature_C) run.facts.temperature_C = o.temperature_C;
+}
+
+std::string fingerprint(const RunOptions& o) {
+  // Every option that can change a result. The method file is not here: its
+  // content hash enters the batch's resumability key on its own.
+  auto num = [](const std::optional<double>& v) { return v ? fmt::format("{:.17g}", *v) : std::string("-"); };
+  return fmt::format(
+      "sample_volume={};titrant_conc={};titrant={};temperature={};columns={};volume_unit={};signal={};sort={};"
+      "max_size={:.17g};e0={};slope={};buffers={};window={};min_height={};min_separation={};gran_window={};"
+      "analyte_charge={};drop_volume={}",
+      num(o.sample_volume_mL), num(o.titrant_conc_mol_L), o.titrant, num(o.temperature_C), o.columns, o.volume_unit,
+      o.signal, o.sort, o.max_size_MiB, num(o.e0_mV), num(o.slope_mV), o.buffers, o.window, num(o.min_height),
+      num(o.min_separation_mL), o.gran_window, o.analyte_charge ? std::to_string(*o.analyte_charge) : std::string("-"),
+      num(o.drop_volume_mL));
 }
 
 }  // namespace veq::cli

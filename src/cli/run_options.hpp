@@ -50,4 +50,8 @@ void add_run_options(CLI::App* cmd, RunOptions& o);
 // The command line wins over the file's metadata.
 void apply_facts(const RunOptions& o, Run& run);
 
+// Every option above as one canonical line (numbers to 17 digits), for a
+// batch's resumability key: a run is redone when any of them changes.
+[[nodiscard]] std::string fingerprint(const RunOptions& o);
+
 }  // namespace veq::cli

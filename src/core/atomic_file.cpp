@@ -27,8 +27,8 @@ std::atomic<unsigned long> g_counter{0};
 
 }  // namespace
 
-AtomicFile::AtomicFile(std::filesystem::path target, bool allow_replace)
-    : m_target(std::move(target)), m_allow_replace(allow_replace) {
+AtomicFile::AtomicFile(std::filesystem::path target, bool allow_replace, Sync sync)
+    : m_target(std::move(target)), m_allow_replace(allow_replace), m_sync(sync) {
   const std::string name = m_target.filename().string();
   for (int attempt = 0; attempt < 100 && m_fd < 0; ++attempt) {
     m_temp = m_target;
@@ -58,7 +58,7 @@ void AtomicFile::write(std::string_view data) {
 
 void AtomicFile::commit() {
   if (m_committed) return;
-  if (::fsync(m_fd) != 0 && errno != EINVAL) fail(m_target, "sync failed", errno);
+  if (m_sync == Sync::now && ::fsync(m_fd) != 0 && errno != EINVAL) fail(m_target, "sync failed", errno);
   if (::close(m_fd) != 0) {
     m_fd = -1;
     fail(m_target, "close failed", errno);
@@ -85,8 +85,9 @@ void AtomicFile::commit() {
 
 void write_file_atomically(const std::filesystem::path& target,
                            std::string_view content,
-                           bool allow_replace) {
-  AtomicFile file(target, allow_replace);
+                           bool allow_replace,
+                           Sync sync) {
+  AtomicFile file(target, allow_replace, sync);
   file.write(content);
   file.commit();
 }

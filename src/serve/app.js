@@ -47,9 +47,18 @@ function showRun(run) {
     }
   }
   const dl = cell(tr, "");
+  if (run.report) {
+    const a = document.createElement("a");
+    a.href = run.report;
+    a.target = "_blank";
+    a.rel = "noopener";
+    a.textContent = "report";
+    dl.appendChild(a);
+    dl.appendChild(document.createTextNode(" "));
+  }
   link(dl, run.downloads.json, "JSON");
   link(dl, run.downloads.text, "text");
-  if (run.downloads.html) link(dl, run.downloads.html, "report");
+  if (run.downloads.html) link(dl, run.downloads.html, "HTML");
   $("results").tBodies[0].appendChild(tr);
 }
 

@@ -23,7 +23,9 @@
 #include "veq/ingest/reader.hpp"
 #include "veq/method/method.hpp"
 #include "veq/method/replicates.hpp"
+#include "veq/report/html.hpp"
 #include "veq/report/json.hpp"
+#include "veq/report/summary.hpp"
 #include "veq/report/text.hpp"
 
 namespace veq::serve {
@@ -65,24 +67,12 @@ std::string display_name(const std::string& filename) {
   return out.empty() ? std::string("upload") : out;
 }
 
-// Spreadsheet formula injection: a cell starting with = + - @ (or a tab/CR) is prefixed with '
-// (OWASP, "CSV Injection"); every cell is quoted per RFC 4180.
-std::string csv_cell(const std::string& s) {
-  std::string v = s;
-  if (!v.empty() && std::string_view("=+-@\t\r").find(v.front()) != std::string_view::npos) v.insert(v.begin(), '\'');
-  std::string out = "\"";
-  for (char c : v) {
-    if (c == '"') out += "\"\"";
-    else out.push_back(c);
-  }
-  return out + "\"";
-}
-
 struct Entry {
   std::string name;       // display name of the upload
   std::string sample_id;
   std::string json;
   std::string text;
+  std::string html;  // the full report; empty for a file that could not be read
   std::string csv_row;
   std::size_t bytes = 0;
 };
@@ -94,7 +84,7 @@ class Store {
   std::string add(Entry e) {
     std::lock_guard<std::mutex> lock(m_mutex);
     const std::string id = new_id();
-    e.bytes = e.json.size() + e.text.size() + e.csv_row.size() + e.name.size();
+    e.bytes = e.json.size() + e.text.size() + e.html.size() + e.csv_row.size() + e.name.size();
     m_bytes += e.bytes;
     m_entries.emplace(id, std::move(e));
     m_order.push_back(id);
@@ -253,7 +243,15 @@ struct Server::Impl {
 
     http.Post("/api/analyze", [this](const httplib::Request& req, httplib::Response& res) { analyze(req, res); });
 
-    http.Get(R"(/api/run/([0-9a-f]{32})\.(json|txt))", [this](const httplib::Request& req, httplib::Response& res) {
+    http.Get(R"(/report/([0-9a-f]{32}))", [this](const httplib::Request& req, httplib::Response& res) {
+      const auto e = store.get(req.matches[1]);
+      if (!e || e->html.empty()) return json_error(res, 404, "no such report (results are kept for a limited time)");
+      common_headers(res);
+      res.set_header("Content-Security-Policy", kReportCsp);
+      res.set_content(e->html, "text/html; charset=utf-8");
+    });
+
+    http.Get(R"(/api/run/([0-9a-f]{32})\.(json|txt|html))", [this](const httplib::Request& req, httplib::Response& res) {
       const auto e = store.get(req.matches[1]);
       if (!e) return json_error(res, 404, "no such result (results are kept for a limited time)");
       common_headers(res);
@@ -262,8 +260,15 @@ struct Server::Impl {
       for (char c : e->sample_id) stem.push_back(std::isalnum(static_cast<unsigned char>(c)) || c == '-' || c == '_' ? c : '_');
       if (stem.empty()) stem = "run";
       res.set_header("Content-Disposition", "attachment; filename=\"" + stem + "." + kind + "\"");
-      if (kind == "json") res.set_content(e->json, "application/json");
-      else res.set_content(e->text, "text/plain; charset=utf-8");
+      if (kind == "json") {
+        res.set_content(e->json, "application/json");
+      } else if (kind == "html") {
+        if (e->html.empty()) return json_error(res, 404, "no report for a file that could not be read");
+        res.set_header("Content-Security-Policy", kReportCsp);
+        res.set_content(e->html, "text/html; charset=utf-8");
+      } else {
+        res.set_content(e->text, "text/plain; charset=utf-8");
+      }
     });
 
     http.Get("/api/results.csv", [this](const httplib::Request& req, httplib::Response& res) {
@@ -336,6 +341,7 @@ struct Server::Impl {
         entry.sample_id = a.run.facts.sample_id;
         entry.json = report::to_json(a);
         entry.text = report::to_text(a);
+        entry.html = report::to_html(a);
         const bool ok = !a.endpoints.endpoints.empty() && a.results_error.empty();
         r["status"] = ok ? "ok" : a.endpoints.endpoints.empty() ? "no_endpoint" : "no_result";
         r["sample_id"] = a.run.facts.sample_id;
@@ -354,8 +360,8 @@ struct Server::Impl {
         }
         std::string eps;
         for (const auto& e : a.endpoints.endpoints) eps += fmt::format("{}{:.4f}", eps.empty() ? "" : " ", e.volume_mL);
-        entry.csv_row = csv_cell(entry.sample_id) + "," + csv_cell(name) + "," + csv_cell(r["status"]) + "," +
-                        csv_cell(eps) + "," + csv_cell(result) + "," + csv_cell(flags) + "," + csv_cell(a.results_error) + "\r\n";
+        entry.csv_row = report::csv_field(entry.sample_id) + "," + report::csv_field(name) + "," + report::csv_field(r["status"].get<std::string>()) + "," +
+                        report::csv_field(eps) + "," + report::csv_field(result) + "," + report::csv_field(flags) + "," + report::csv_field(a.results_error) + "\r\n";
         done.push_back(std::move(a));
       } catch (const InputError& e) {
         r["status"] = "error";
@@ -363,11 +369,15 @@ struct Server::Impl {
         if (!e.hint().empty()) r["hint"] = e.hint();
         entry.json = ordered_json{{"error", e.what()}, {"hint", e.hint()}}.dump(2) + "\n";
         entry.text = std::string("veq: error: ") + e.what() + "\n";
-        entry.csv_row = csv_cell("") + "," + csv_cell(name) + "," + csv_cell("error") + ",\"\",\"\",\"\"," + csv_cell(e.what()) + "\r\n";
+        entry.csv_row = report::csv_field("") + "," + report::csv_field(name) + "," + report::csv_field("error") + ",\"\",\"\",\"\"," + report::csv_field(e.what()) + "\r\n";
       }
       const std::string id = store.add(std::move(entry));
       r["id"] = id;
       r["downloads"] = {{"json", "/api/run/" + id + ".json"}, {"text", "/api/run/" + id + ".txt"}};
+      if (r["status"] != "error") {
+        r["downloads"]["html"] = "/api/run/" + id + ".html";
+        r["report"] = "/report/" + id;
+      }
       runs.push_back(r);
     }
     // Replicates: results grouped by sample id.

@@ -83,8 +83,18 @@ double chi2_limit(int n) {
   // Accept a window whose reduced chi-square is below twice the 99 % point of
   // its distribution: the factor allows the noise estimate to be low by sqrt(2).
   const int dof = std::max(1, n - 2);
+  // The quantile is a root search and the same window sizes recur in every run:
+  // remember each value (per thread, so no locking; the values are the same).
+  thread_local std::vector<double> cache;
+  const auto k = static_cast<std::size_t>(dof);
+  if (k < cache.size() && cache[k] > 0.0) return cache[k];
   boost::math::chi_squared dist(dof);
-  return 2.0 * boost::math::quantile(dist, 0.99) / dof;
+  const double limit = 2.0 * boost::math::quantile(dist, 0.99) / dof;
+  if (k < 100000) {
+    if (cache.size() <= k) cache.resize(k + 1, 0.0);
+    cache[k] = limit;
+  }
+  return limit;
 }
 
 struct Series {
@@ -109,8 +119,10 @@ struct Trimmed {
 Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bool fixed) {
   Trimmed best;
   double best_score = 1e300;
+  // The fit of the next, shorter window is one of the two tried below: kept, not refitted.
+  std::optional<Fit> next;
   while (static_cast<int>(hi - lo + 1) >= min_points) {
-    const Fit f = fit_line(s.v, s.g, s.w, lo, hi);
+    const Fit f = next ? *next : fit_line(s.v, s.g, s.w, lo, hi);
     if (!(std::fabs(f.b) > 0) || !std::isfinite(f.a)) break;
     const double score = f.reduced() / chi2_limit(f.n);
     if (score < best_score) best_score = score, best = {f, lo, hi, false, true};
@@ -123,8 +135,8 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
     if (static_cast<int>(hi - lo) < min_points) break;
     const Fit fl = fit_line(s.v, s.g, s.w, lo + 1, hi);
     const Fit fh = fit_line(s.v, s.g, s.w, lo, hi - 1);
-    if (fl.reduced() < fh.reduced()) ++lo;
-    else --hi;
+    if (fl.reduced() < fh.reduced()) ++lo, next = fl;
+    else --hi, next = fh;
   }
   return best;
 }

@@ -99,7 +99,7 @@ TEST_CASE("upload page: good and bad files in one upload", "[serve]") {
   CHECK(nlohmann::json::parse(json->body)["schema"] == "veq.run/1");
   auto csv = c.Get(("/api/results.csv?ids=" + good["id"].get<std::string>() + "," + bad["id"].get<std::string>()).c_str());
   REQUIRE(csv);
-  CHECK(csv->body.find("\"WEB-1\"") != std::string::npos);
+  CHECK(csv->body.find("WEB-1,good.csv,ok,") != std::string::npos);
   CHECK(c.Get("/api/run/0123456789abcdef0123456789abcdef.json")->status == 404);
 }
 
@@ -187,6 +187,13 @@ TEST_CASE("upload page: script tags and quotes in metadata stay text", "[serve]"
   const auto j = nlohmann::json::parse(r->body);
   // JSON carries the text as a string value; the page inserts it with textContent.
   CHECK(j["runs"][0]["file"] == "<img src=x onerror=alert(1)>.csv");
+  // The full report escapes them and carries no script at all.
+  auto html = c.Get(j["runs"][0]["report"].get<std::string>().c_str());
+  REQUIRE(html);
+  CHECK(html->status == 200);
+  CHECK(html->body.find("<script") == std::string::npos);
+  CHECK(html->body.find("&lt;script&gt;") != std::string::npos);
+  CHECK(html->get_header_value("Content-Security-Policy").find("default-src 'none'") != std::string::npos);
   auto text = c.Get(j["runs"][0]["downloads"]["text"].get<std::string>().c_str());
   REQUIRE(text);
   CHECK(text->get_header_value("Content-Type").rfind("text/plain", 0) == 0);
