@@ -397,7 +397,6 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   head["input"] = options.input_dir.string();
   head["shard"] = shard_text.empty() ? ordered_json(nullptr) : ordered_json(shard_text);
   head["method"] = options.method_identity.empty() ? ordered_json(nullptr) : ordered_json(options.method_identity);
-  head["method_applied"] = !options.method_identity.empty();
   head["total"] = tasks.size();
   ordered_json counts = ordered_json::object();
   report::IndexInfo info;
