@@ -91,7 +91,7 @@ std::string index_html_begin(const IndexInfo& info) {
   s += "<header>\n<p class=\"kicker\">Batch of titration runs</p>\n<h1>" + esc(info.input) + "</h1>\n";
   std::string facts = fmt::format("{} runs", info.total);
   if (!info.shard.empty()) facts += " (shard " + esc(info.shard) + ")";
-  if (!info.method.empty()) facts += "; method " + esc(info.method) + " (recorded, not applied by this veq)";
+  if (!info.method.empty()) facts += "; method " + esc(info.method);
   s += "<p>" + facts + "</p>\n<p class=\"counts\">";
   for (const auto& [name, n] : info.counts) {
     if (n == 0) continue;
