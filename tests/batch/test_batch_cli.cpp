@@ -321,3 +321,64 @@ TEST_CASE("veq batch with a method: results and replicate statistics in the summ
   CHECK(slurp(root / "out" / "index.html").find("<h2>Replicates</h2>") != std::string::npos);
   CHECK(summary["runs"][0]["results"][0]["name"] == "HCl");
 }
+
+namespace {
+
+// Like run_veq, with a limit on the size of any file the child writes (RLIMIT_FSIZE, via
+// util-linux prlimit): writes past it fail with EFBIG, as on a full disk.
+Run run_veq_file_limit(const std::vector<std::string>& args, const fs::path& scratch, std::size_t max_file_bytes) {
+  std::string cmd = "exec prlimit --fsize=" + std::to_string(max_file_bytes) + " '" VEQ_BINARY "'";
+  for (const auto& a : args) cmd += " '" + a + "'";
+  cmd += " >'" + (scratch / "stdout.txt").string() + "' 2>'" + (scratch / "stderr.txt").string() + "'";
+  const int status = std::system(cmd.c_str());
+  return {WIFEXITED(status) ? WEXITSTATUS(status) : -1, slurp(scratch / "stdout.txt"), slurp(scratch / "stderr.txt")};
+}
+
+}  // namespace
+
+TEST_CASE("a full disk during a batch: failed writes are reported, nothing corrupt, the rerun is clean",
+          "[batch][cli][fault]") {
+  const fs::path root = veq::test::fresh_dir("batch_full_disk");
+  const fs::path in = make_input(root, 12);
+  REQUIRE(run_veq({"batch", in.string(), "--out", (root / "clean").string()}, root).code == 1);  // two bad files
+  const auto clean = outputs(root / "clean");
+  // Every file is limited to 20 kB: the HTML reports (tens of kB) cannot be written.
+  const Run full = run_veq_file_limit({"batch", in.string(), "--out", (root / "out").string()}, root, 20000);
+  INFO(full.out << full.err);
+  CHECK(full.code == 1);  // runs failed; the batch itself went on to the end
+  const std::string errors = slurp(root / "out" / "errors.txt");
+  CHECK(errors.find("[output_error]") != std::string::npos);
+  CHECK(errors.find("File too large") != std::string::npos);
+  CHECK_FALSE(any_temporary(root / "out"));  // failed writes leave no temporaries behind
+  check_whole(root / "out");                  // and nothing half-written under a final name
+  // With room again, the rerun gives exactly what a batch that never failed gives.
+  (void)run_veq({"batch", in.string(), "--out", (root / "out").string()}, root);
+  CHECK(outputs(root / "out") == clean);
+
+  // The same on a real full file system, where this machine lets us mount a small tmpfs (as root).
+  const fs::path mnt = root / "tmpfs";
+  fs::create_directories(mnt);
+  if (std::system(("mount -t tmpfs -o size=256k tmpfs '" + mnt.string() + "' 2>/dev/null").c_str()) == 0) {
+    const Run enospc = run_veq({"batch", in.string(), "--out", (mnt / "out").string()}, root);
+    INFO(enospc.out << enospc.err);
+    CHECK(enospc.code != 0);
+    const std::string said = enospc.out + enospc.err +
+                             (fs::exists(mnt / "out" / "errors.txt") ? slurp(mnt / "out" / "errors.txt") : std::string());
+    CHECK(said.find("No space left on device") != std::string::npos);
+    if (fs::exists(mnt / "out")) {
+      CHECK_FALSE(any_temporary(mnt / "out"));
+      check_whole(mnt / "out");
+    }
+    CHECK(std::system(("umount '" + mnt.string() + "'").c_str()) == 0);
+  }
+}
+
+TEST_CASE("an output folder that cannot be written: a clear error naming it, exit 2", "[batch][cli][fault]") {
+  const fs::path root = veq::test::fresh_dir("batch_readonly");
+  const fs::path in = make_input(root, 2);
+  // /proc is a read-only file system for files like these, whatever the user (root ignores permission bits).
+  const Run r = run_veq({"batch", in.string(), "--out", "/proc/self/veq-out"}, root);
+  CHECK(r.code == 2);
+  CHECK(r.err.find("/proc/self/veq-out") != std::string::npos);
+  CHECK(r.err.find("veq: error:") != std::string::npos);
+}
