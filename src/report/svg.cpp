@@ -19,18 +19,18 @@ std::string coord(double px) {
 }
 
 void append_coord(std::string& out, double px) {
-  // Hundredths by integer arithmetic: a page holds thousands of coordinates and
-  // this is many times faster than formatting each double.
+  // Tenths of a pixel by integer arithmetic: a page holds thousands of
+  // coordinates; this is many times faster than formatting doubles, and a
+  // tenth of a pixel is finer than any screen or printer shows.
   if (!std::isfinite(px)) px = 0.0;
-  const long long h = std::llround(std::clamp(px, -1e12, 1e12) * 100.0);
-  const unsigned long long a = h < 0 ? static_cast<unsigned long long>(-h) : static_cast<unsigned long long>(h);
-  if (h < 0) out += '-';
+  const long long t = std::llround(std::clamp(px, -1e12, 1e12) * 10.0);
+  const unsigned long long a = t < 0 ? static_cast<unsigned long long>(-t) : static_cast<unsigned long long>(t);
+  if (t < 0) out += '-';
   char buf[24];
-  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, a / 100);
+  const auto [end, ec] = std::to_chars(buf, buf + sizeof buf, a / 10);
   (void)ec;
   out.append(buf, end);
   out += '.';
-  out += static_cast<char>('0' + (a / 10) % 10);
   out += static_cast<char>('0' + a % 10);
 }
 
@@ -121,24 +121,39 @@ void Plot::polyline(std::span<const std::pair<double, double>> points, const Sty
 }
 
 void Plot::dots(std::span<const std::pair<double, double>> points, double radius_px, const Style& style) {
-  // One path of circles (two arcs each) keeps the output compact for hundreds of readings.
-  std::string r, arcs;
-  append_coord(r, radius_px);
-  arcs = "a" + r + " " + r + " 0 1 0 " + coord(2 * radius_px) + " 0a" + r + " " + r + " 0 1 0 " +
-         coord(-2 * radius_px) + " 0";
+  // Filled dots: one path of zero-length segments with round caps, which SVG
+  // draws as discs of the stroke width (SVG 1.1, 'stroke-linecap': zero-length
+  // subpaths are drawn with round and square caps): a few bytes per reading.
+  // Rings (outline only) are two arcs each.
+  const bool filled = style.fill != "none";
+  std::string tail;
+  if (filled) {
+    tail = "h0";
+  } else {
+    std::string r;
+    append_coord(r, radius_px);
+    tail = "m-" + r + " 0a" + r + " " + r + " 0 1 0 " + coord(2 * radius_px) + " 0a" + r + " " + r + " 0 1 0 " +
+           coord(-2 * radius_px) + " 0";
+  }
   std::string d;
-  d.reserve(points.size() * (arcs.size() + 16));
+  d.reserve(points.size() * (tail.size() + 14));
   for (const auto& [x, y] : points) {
     if (!std::isfinite(x) || !std::isfinite(y)) continue;
     const double px = x_px(x), py = y_px(y);
     if (px < -radius_px || px > m_w + radius_px || py < -radius_px || py > m_h + radius_px) continue;
     d += 'M';
-    append_coord(d, px - radius_px);
+    append_coord(d, px);
     d += ' ';
     append_coord(d, py);
-    d += arcs;
+    d += tail;
   }
-  if (!d.empty()) m_body += "<path d=\"" + d + "\"" + attributes(style) + "/>\n";
+  if (d.empty()) return;
+  if (filled) {
+    Style line = stroke(style.fill, 2 * radius_px, {}, style.opacity);
+    m_body += "<path d=\"" + d + "\"" + attributes(line) + " stroke-linecap=\"round\"/>\n";
+  } else {
+    m_body += "<path d=\"" + d + "\"" + attributes(style) + "/>\n";
+  }
 }
 
 void Plot::segment(double x0, double y0, double x1, double y1, const Style& style) {

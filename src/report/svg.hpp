@@ -46,8 +46,8 @@ struct Ticks {
 };
 [[nodiscard]] Ticks nice_ticks(double lo, double hi, int count);
 
-// A coordinate for SVG output: fixed two decimals (rounded half away from
-// zero), never "-0.00"; non-finite values as 0.00.
+// A coordinate for SVG output [px]: one decimal (rounded half away from
+// zero), never "-0.0"; non-finite values as 0.0.
 [[nodiscard]] std::string coord(double px);
 void append_coord(std::string& out, double px);
 
