@@ -60,19 +60,23 @@ Derivatives derivatives(std::span<const double> v, std::span<const double> y, in
   return d;
 }
 
-int auto_window(std::span<const double> v, std::span<const double> y, double noise_sd) {
+int auto_window(std::span<const double> v, std::span<const double> y, double noise_sd, int direction) {
   const std::size_t n = v.size();
   if (n < 8) return 2;
-  std::vector<double> steps;
-  steps.reserve(n - 1);
-  for (std::size_t i = 0; i + 1 < n; ++i) steps.push_back(std::fabs(y[i + 1] - y[i]));
-  auto mid = steps.begin() + static_cast<std::ptrdiff_t>(steps.size() / 2);
-  std::nth_element(steps.begin(), mid, steps.end());
-  const double typical = *mid;
-  const double rho = typical > 0 ? noise_sd * std::sqrt(2.0) / typical : 1e9;
-  int w = rho < 0.25 ? 2 : rho < 0.5 ? 4 : rho < 1.0 ? 6 : 8;
   const int cap = std::max(2, static_cast<int>(n / 4) / 2 * 2);
-  return std::min(w, cap);
+  int best_w = 2;
+  double best_snr = -1.0;
+  for (int w = 2; w <= std::min(8, cap); w += 2) {
+    const Derivatives d = derivatives(v, y, w, noise_sd);
+    double top = 0.0;
+    for (std::size_t i = 0; i < d.d1.size(); ++i) {
+      if (d.d1_sd[i] > 0) top = std::max(top, direction * d.d1[i] / d.d1_sd[i]);
+      else if (direction * d.d1[i] > 0) top = 1e300;
+    }
+    if (top >= kWindowTargetSnr) return w;
+    if (top > best_snr) best_snr = top, best_w = w;
+  }
+  return best_w;
 }
 
 }  // namespace veq::signal

@@ -185,25 +185,8 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
                             {file, 0, 0}});
     return out;
   }
-  // Window: the noise rule (auto_window), but never wider than the narrowest
-  // window at which the run's highest peak already stands 40 derivative-noise
-  // SDs tall (a wide window blurs a sharp jump, worst at the ends of the data).
-  int window = options.window_points;
-  if (window == 0) {
-    window = auto_window(v, y, curve.noise_sd);
-    for (int w = 2; w < window; w += 2) {
-      const Derivatives trial = derivatives(v, y, w, curve.noise_sd);
-      double best = 0;
-      for (std::size_t i = 0; i < trial.d1.size(); ++i) {
-        const double snr = trial.d1_sd[i] > 0 ? curve.direction * trial.d1[i] / trial.d1_sd[i] : 0.0;
-        best = std::max(best, snr);
-      }
-      if (best >= 40.0) {
-        window = w;
-        break;
-      }
-    }
-  }
+  const int window = options.window_points > 0 ? options.window_points
+                                                : auto_window(v, y, curve.noise_sd, curve.direction);
   out.derivatives = derivatives(v, y, window, curve.noise_sd);
   const Derivatives& d = out.derivatives;
   const std::size_t m = d.d1.size();
@@ -261,8 +244,11 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
     if (h[j] < options.min_relative_height * top) continue;
     const double prominence = h[j] - std::max(left_valley[j], right_valley[j]);
     if (prominence < options.min_prominence * h[j]) continue;
+    // Both the peak and its rise above the valleys must stand out of the noise: a noise
+    // bump on a sloping buffer region is tall but not prominent.
     const double snr = d.d1_sd[j] > 0 ? h[j] / d.d1_sd[j] : 1e9;
-    if (snr < options.min_snr) continue;
+    const double prominence_snr = d.d1_sd[j] > 0 ? prominence / d.d1_sd[j] : 1e9;
+    if (snr < options.min_snr || prominence_snr < options.min_snr) continue;
     cands.push_back({j, h[j], snr});
   }
   std::sort(cands.begin(), cands.end(), [](const Peak& a, const Peak& b) { return a.height > b.height; });

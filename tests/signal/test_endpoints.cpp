@@ -241,13 +241,21 @@ TEST_CASE("derivatives of a quadratic are exact, on any spacing and window", "[s
   }
 }
 
-TEST_CASE("window rule follows the noise", "[signal][derivatives]") {
+TEST_CASE("window rule: narrow for a sharp jump, wider for a broad peak in noise", "[signal][derivatives]") {
+  // A sharp strong acid jump (0.1 mol/L HCl, exact charge balance) stands out at once: window 2.
+  Sample s = strong_acid(20.0);
+  const auto sharp = veq::test::synthetic_run(s, grid(0.0, 30.0, 0.1), 0.005, 3);
+  CHECK(veq::signal::auto_window(sharp.volume_mL, sharp.signal_values, 0.005, +1) == 2);
+  // A smooth peak read every 0.01 mL with 0.01 pH noise: one difference quotient has an SD of
+  // 0.01 x sqrt(2) / 0.01 = 1.4 pH/mL (error propagation), so a wider window is needed.
   std::vector<double> v, y;
-  for (int i = 0; i < 100; ++i) v.push_back(0.1 * i), y.push_back(0.01 * i);  // 0.01 per step
-  CHECK(veq::signal::auto_window(v, y, 0.0001) == 2);
-  CHECK(veq::signal::auto_window(v, y, 0.003) == 4);
-  CHECK(veq::signal::auto_window(v, y, 0.006) == 6);
-  CHECK(veq::signal::auto_window(v, y, 0.02) == 8);
+  std::mt19937 rng(5);
+  std::normal_distribution<double> g(0.0, 0.01);
+  for (int i = 0; i <= 1000; ++i) {
+    v.push_back(0.01 * i);
+    y.push_back(7.0 + std::tanh((v.back() - 5.0) / 2.0) + g(rng));  // peak slope 0.5 pH/mL
+  }
+  CHECK(veq::signal::auto_window(v, y, 0.01, +1) > 2);
 }
 
 TEST_CASE("default options are pinned", "[options]") {

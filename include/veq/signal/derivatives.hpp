@@ -27,10 +27,16 @@ struct Derivatives {
 [[nodiscard]] Derivatives derivatives(std::span<const double> v, std::span<const double> y, int window_points,
                                       double noise_sd);
 
-// The window the data call for: 2 when the reading noise is small beside the
-// typical change between readings, wider as it grows. Rule, with
-// rho = noise_sd * sqrt(2) / median |y[i+1] - y[i]|:
-// rho < 0.25 -> 2, < 0.5 -> 4, < 1 -> 6, otherwise 8; never more than n/4.
-[[nodiscard]] int auto_window(std::span<const double> v, std::span<const double> y, double noise_sd);
+// How tall the run's highest derivative value must stand, in SDs of its
+// noise, for a window to be wide enough [-].
+inline constexpr double kWindowTargetSnr = 40.0;
+
+// The window the data call for: the narrowest of 2, 4, 6, 8 readings (at most
+// n/4) at which the highest value of direction x dy/dV is kWindowTargetSnr
+// noise SDs tall; when none is, the window where it stands tallest. A narrow
+// window keeps sharp jumps sharp; a wider one lifts a broad peak out of the
+// noise of closely spaced readings.
+[[nodiscard]] int auto_window(std::span<const double> v, std::span<const double> y, double noise_sd, int direction);
+
 
 }  // namespace veq::signal

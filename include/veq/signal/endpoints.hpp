@@ -12,9 +12,8 @@
 namespace veq::signal {
 
 struct EndpointOptions {
-  // Readings per derivative window (even, >= 2); 0 chooses from the data:
-  // auto_window's noise rule, narrowed to the smallest window at which the
-  // highest peak is at least 40 derivative-noise SDs tall.
+  // Readings per derivative window (even, >= 2); 0 chooses from the data
+  // (see auto_window).
   int window_points = 0;
   // A derivative peak is an endpoint only if its height is at least this
   // fraction of the highest peak of the run [-].
@@ -22,7 +21,8 @@ struct EndpointOptions {
   // ... and it stands out of the valleys on both sides by at least this
   // fraction of its own height (prominence / height) [-].
   double min_prominence = 0.5;
-  // ... and its height is at least this many SDs of the derivative noise [-].
+  // ... and both its height and its prominence are at least this many SDs of
+  // the derivative noise [-].
   double min_snr = 8.0;
   // ... and it lies at least this far from a higher accepted peak [mL];
   // 0: three times the run's median volume step.
