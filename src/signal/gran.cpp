@@ -437,9 +437,16 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
   if (g.before && g.before->linear) all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
   if (g.after && g.after->linear) all.push_back({"gran_after", g.after->volume_mL, g.after->uncertainty_mL, false});
   const bool any_clean = std::any_of(all.begin(), all.end(), [](const Est& x) { return !x.flagged; });
+  auto apart = [](const Est& a, const Est& b) {
+    return std::fabs(a.v - b.v) > 2.0 * std::sqrt(a.u * a.u + b.u * b.u);
+  };
   std::vector<Est> used;
   for (const auto& x : all) {
-    if (!any_clean || !x.flagged) used.push_back(x);
+    if (any_clean && x.flagged) continue;
+    // A Gran line that disagrees with a clean, model-free derivative estimate rests on
+    // chemistry that does not hold here (activity, a further weak step, a mixture): leave it out.
+    if (x.name != "derivative" && !d_flagged && apart(x, all.front())) continue;
+    used.push_back(x);
   }
   Consensus c;
   double sw = 0, swv = 0;
