@@ -130,13 +130,34 @@ std::optional<double> mass_to_g(const Amount& q) {
 
 std::optional<double> conc_to_mol_L(const Amount& q) {
   const std::string u = squeeze_unit(q.unit);
-  if (u.empty() || u == "mol/l" || u == "moll-1" || u == "mol/dm3" || u == "m" || u == "n" ||
-      u == "eq/l" || u == "mmol/ml" || u == "moll\xe2\x81\xbb\xc2\xb9" || u == "mol/liter" ||
-      u == "mol/litre" || u == "molar") {
+  if (u.empty() || u == "mol/l" || u == "moll-1" || u == "mol/dm3" || u == "m" || u == "mmol/ml" ||
+      u == "moll\xe2\x81\xbb\xc2\xb9" || u == "mol/liter" || u == "mol/litre" || u == "molar") {
     return q.value;
   }
-  if (u == "mmol/l" || u == "mm" || u == "mn" || u == "meq/l") return q.value * 1e-3;
+  if (u == "mmol/l" || u == "mm") return q.value * 1e-3;
   return std::nullopt;
+}
+
+std::optional<double> normality_to_eq_L(const Amount& q) {
+  const std::string u = squeeze_unit(q.unit);
+  if (u == "n" || u == "eq/l" || u == "normal") return q.value;
+  if (u == "mn" || u == "meq/l") return q.value * 1e-3;
+  return std::nullopt;
+}
+
+int titrant_equivalents_from_name(std::string_view name) {
+  std::string n;
+  for (char c : normalize_label(name)) {
+    if ((c >= 'a' && c <= 'z') || (c >= '0' && c <= '9')) n.push_back(c);
+  }
+  for (std::string_view two : {"h2so4", "sulfuric", "sulphuric", "baoh2", "caoh2", "bariumhydroxide", "oxalic"}) {
+    if (n.find(two) != std::string::npos) return 2;
+  }
+  for (std::string_view one : {"hcl", "hno3", "hclo4", "naoh", "koh", "lioh", "hydrochloric", "nitric", "perchloric",
+                               "tbah", "tmah", "sodiumhydroxide", "potassiumhydroxide"}) {
+    if (n.find(one) != std::string::npos) return 1;
+  }
+  return 0;
 }
 
 std::optional<double> temperature_to_C(const Amount& q) {
@@ -168,6 +189,8 @@ Facts facts_from_metadata(const std::vector<MetaEntry>& entries,
   Facts f;
   std::optional<double> e0, slope, slope_percent, cal_temp;
   std::optional<double> conc_from_name;
+  std::optional<double> normality;           // eq/L, converted once the titrant is known
+  std::size_t normality_line = 0;
   auto warn = [&](const MetaEntry& e, const std::string& what) {
     warnings.push_back({"metadata_unit", "metadata '" + excerpt(e.key) + "' = '" + excerpt(e.value) +
                                              "': " + what + "; ignored",
@@ -182,17 +205,20 @@ Facts facts_from_metadata(const std::vector<MetaEntry>& entries,
       return q;
     };
     if (key_is(key, {"sample", "sample id", "sample name", "sample no", "sample number", "sample ident",
-                     "sample identifier", "id", "sample code", "sample label", "lims id", "run id"})) {
+                     "sample identifier", "id", "sample code", "sample label", "lims id", "run id",
+                     "probe", "probenname", "probennummer", "proben id", "probe id"})) {
       if (!e.value.empty()) f.sample_id = e.value;
     } else if (key_is(key, {"sample volume", "sample vol", "v0", "aliquot", "aliquot volume",
                             "volume of sample", "initial volume", "sample size", "sample amount",
-                            "sample mass", "sample weight", "mass", "weight", "weighed amount"})) {
+                            "sample mass", "sample weight", "mass", "weight", "weighed amount", "probenvolumen",
+                            "vorlage", "einwaage", "probenmasse"})) {
       auto q = quantity();
       if (!q) {
         warn(e, "no number found");
         continue;
       }
-      const bool mass_key = key.find("mass") != std::string::npos || key.find("weigh") != std::string::npos;
+      const bool mass_key = key.find("mass") != std::string::npos || key.find("weigh") != std::string::npos ||
+                            key == "einwaage";
       if (auto v = volume_to_mL(*q); v && !mass_key) {
         if (*v <= 0) warn(e, "a sample volume must be positive");
         else f.sample_volume_mL = *v;
@@ -202,7 +228,7 @@ Facts facts_from_metadata(const std::vector<MetaEntry>& entries,
       } else {
         warn(e, "unit '" + excerpt(q->unit) + "' not understood (expected mL, uL, L, g or mg)");
       }
-    } else if (key_is(key, {"titrant", "titrant name", "reagent", "titrating agent", "titrant reagent"})) {
+    } else if (key_is(key, {"titrant", "titrant name", "reagent", "titrating agent", "titrant reagent", "titriermittel"})) {
       f.titrant_name = e.value;
       if (f.titrant_kind == TitrantKind::unknown) f.titrant_kind = titrant_kind_from_name(e.value);
       // "NaOH 0.1000 mol/L": a concentration inside the name.
@@ -214,26 +240,32 @@ Facts facts_from_metadata(const std::vector<MetaEntry>& entries,
         if (tok.empty() || std::string_view("0123456789.,").find(tok.front()) == std::string_view::npos) continue;
         std::string candidate(tok);
         if (auto space = rest.find(' '); !rest.empty()) candidate += " " + std::string(rest.substr(0, space));
-        if (auto q = parse_quantity(candidate); q && !q->unit.empty()) {
+        for (const auto& text : {candidate, std::string(tok)}) {
+          auto q = parse_quantity(text);
+          if (!q || q->unit.empty()) continue;
           if (auto c = conc_to_mol_L(*q)) conc_from_name = *c;
-        } else if (auto q2 = parse_quantity(tok); q2 && !q2->unit.empty()) {
-          if (auto c = conc_to_mol_L(*q2)) conc_from_name = *c;
+          else if (auto nq = normality_to_eq_L(*q)) normality = *nq, normality_line = e.line;
+          if (conc_from_name || normality) break;
         }
-        if (conc_from_name) break;
+        if (conc_from_name || normality) break;
       }
     } else if (key_is(key, {"titrant concentration", "titrant conc", "concentration", "titrant molarity",
                             "molarity", "c titrant", "titrant c", "normality", "titrant normality",
-                            "conc", "nominal concentration", "titrant nominal concentration"})) {
+                            "conc", "nominal concentration", "titrant nominal concentration", "konzentration",
+                            "titriermittel konzentration"})) {
       auto q = quantity();
       std::optional<double> c = q ? conc_to_mol_L(*q) : std::nullopt;
+      const std::optional<double> nq = q && !c ? normality_to_eq_L(*q) : std::nullopt;
+      const bool normality_key = key.find("normality") != std::string::npos;
       if (!q) warn(e, "no number found");
+      else if (nq || (normality_key && c && q->unit.empty())) normality = nq ? *nq : *c, normality_line = e.line;
       else if (!c) warn(e, "unit '" + excerpt(q->unit) + "' not understood (expected mol/L, M, N or mmol/L)");
       else if (*c <= 0) warn(e, "a concentration must be positive");
       else f.titrant_conc_mol_L = *c;
     } else if (key_is(key, {"titrant type", "titrant kind", "titration type", "titrant class"})) {
       const TitrantKind k = titrant_kind_from_name(e.value);
       if (k != TitrantKind::unknown) f.titrant_kind = k;
-    } else if (key_is(key, {"temperature", "temp", "sample temperature", "t"})) {
+    } else if (key_is(key, {"temperature", "temp", "sample temperature", "t", "temperatur"})) {
       auto q = quantity();
       std::optional<double> t = q ? temperature_to_C(*q) : std::nullopt;
       if (!t) warn(e, "expected a temperature in °C or K");
@@ -254,6 +286,18 @@ Facts facts_from_metadata(const std::vector<MetaEntry>& entries,
     }
   }
   if (!f.titrant_conc_mol_L && conc_from_name) f.titrant_conc_mol_L = conc_from_name;
+  if (!f.titrant_conc_mol_L && normality && *normality > 0) {
+    // Normality is equivalents per litre: divide by the titrant's equivalents per mole
+    // (2 for sulfuric acid; Standard Methods 2320 titrates with 0.02 N H2SO4).
+    const int eq = titrant_equivalents_from_name(f.titrant_name);
+    f.titrant_conc_mol_L = *normality / (eq > 0 ? eq : 1);
+    if (eq == 0) {
+      warnings.push_back({"normality_assumed",
+                          "titrant concentration given as a normality for a titrant veq does not know; taken as "
+                          "1 equivalent per mole",
+                          {file, normality_line, 0}});
+    }
+  }
   if (e0) {
     ElectrodeCalibration cal;
     cal.e0_mV = *e0;

@@ -49,5 +49,9 @@ struct Amount {
 [[nodiscard]] std::optional<double> mass_to_g(const Amount& q);
 [[nodiscard]] std::optional<double> conc_to_mol_L(const Amount& q);
 [[nodiscard]] std::optional<double> temperature_to_C(const Amount& q);
+// Normality (N, eq/L, meq/L) in equivalents per litre; nullopt for other units.
+[[nodiscard]] std::optional<double> normality_to_eq_L(const Amount& q);
+// Equivalents per mole of a titrant known by name (2 for H2SO4, 1 for HCl or NaOH); 0 when unknown.
+[[nodiscard]] int titrant_equivalents_from_name(std::string_view name);
 
 }  // namespace veq::ingest::detail

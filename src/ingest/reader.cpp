@@ -147,6 +147,7 @@ bool is_units_row(const std::vector<std::string>& cells) {
     if ((t.front() == '(' && t.back() == ')') || (t.front() == '[' && t.back() == ']')) {
       t = t.substr(1, t.size() - 2);
     }
+    if (t == "-" || t == "--") continue;  // "no unit" (pH), as exports write it
     if (!detail::find_unit(t)) return false;
     any = true;
   }
@@ -722,6 +723,7 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
             for (std::size_t k = 0; k < names.size(); ++k) {
               std::string u = k < cells.size() ? std::string(detail::trim(cells[k])) : std::string();
               if (!u.empty() && u.front() != '(' && u.front() != '[') u = "(" + u + ")";
+              if (u == "(-)" || u == "[-]" || u == "(--)" || u == "[--]") u.clear();  // no unit
               if (!u.empty()) names[k] += " " + u;
             }
             cells = names;

@@ -289,3 +289,35 @@ TEST_CASE("a header repeated inside the table (paginated export) is skipped with
   for (const auto& w : r.warnings) warned = warned || (w.code == "repeated_header" && w.where.line == 4);
   CHECK(warned);
 }
+
+TEST_CASE("a titrant given as a normality is converted to mol/L by its equivalents", "[ingest][metadata]") {
+  // Standard Methods 2320 B titrates alkalinity with 0.02 N H2SO4: 0.01 mol/L (2 equivalents per mole).
+  const Run r = parse_run("Titrant: H2SO4 0.02 N\nVolume (mL);pH\n0;8.3\n1;7.1\n2;4.5\n", "n.csv");
+  REQUIRE(r.facts.titrant_conc_mol_L);
+  CHECK(*r.facts.titrant_conc_mol_L == veq::test::close(0.01, 1e-12));
+  CHECK(r.facts.titrant_kind == veq::TitrantKind::acid);
+  const Run h = parse_run("Titrant: HCl\nNormality: 0.1\nVolume (mL);pH\n0;8.3\n1;7.1\n2;4.5\n", "h.csv");
+  REQUIRE(h.facts.titrant_conc_mol_L);
+  CHECK(*h.facts.titrant_conc_mol_L == veq::test::close(0.1, 1e-12));  // HCl: 1 equivalent per mole
+}
+
+TEST_CASE("a two-line header with (-) as the unit of pH", "[ingest][columns]") {
+  const Run r = parse_run("Volume;pH\n(mL);(-)\n0.00;3.12\n12.50;4.75\n25.00;8.71\n", "u.csv");
+  check_three(r);
+  CHECK(r.signal == SignalKind::ph);
+}
+
+TEST_CASE("German metadata keys of lab exports are read", "[ingest][metadata]") {
+  const Run r = parse_run("Probe: W-12\nProbenvolumen: 50 ml\nTitriermittel: NaOH 0,1 mol/l\nTemperatur: 21 °C\n"
+                          "Volumen (ml);pH-Wert\n0,00;3,12\n12,50;4,75\n25,00;8,71\n",
+                          "de.csv");
+  check_three(r);
+  CHECK(r.facts.sample_id == "W-12");
+  REQUIRE(r.facts.sample_volume_mL);
+  CHECK(*r.facts.sample_volume_mL == 50.0);
+  REQUIRE(r.facts.titrant_conc_mol_L);
+  CHECK(*r.facts.titrant_conc_mol_L == 0.1);
+  CHECK(r.facts.titrant_kind == veq::TitrantKind::base);
+  REQUIRE(r.facts.temperature_C);
+  CHECK(*r.facts.temperature_C == 21.0);
+}
