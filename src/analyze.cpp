@@ -49,6 +49,9 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
     // A method the run cannot satisfy fails the results, never the endpoints.
     try {
       a.results = method::compute_results(*options.method, run, a.curve, a.endpoints.endpoints, a.gran);
+      for (const auto& c : a.results->conflicts) {
+        a.warnings.push_back({"method_conflict", "method and run disagree: " + c, {run.source, 0, 0}});
+      }
       for (const auto& f : a.results->acceptance_failures) {
         a.warnings.push_back({"acceptance", "method acceptance: " + f, {run.source, 0, 0}});
       }

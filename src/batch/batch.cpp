@@ -45,7 +45,8 @@ constexpr std::array<StatusName, kStatusCount> kStatusNames = {{{RunStatus::ok, 
                                                                 {RunStatus::output_error, "output_error"},
                                                                 {RunStatus::internal_error, "internal_error"},
                                                                 {RunStatus::not_run, "not_run"},
-                                                                {RunStatus::no_result, "no_result"}}};
+                                                                {RunStatus::no_result, "no_result"},
+                                                                {RunStatus::out_of_spec, "out_of_spec"}}};
 
 }  // namespace
 
@@ -544,6 +545,11 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
                    report::csv_field(outlier) + "," + report::csv_field(acceptance) + "\r\n");
     rep_rows.push_back({key.first, key.second, vals.front().unit, st.n, st.mean, st.sd, st.rsd_percent, st.ci95_low,
                         st.ci95_high, outlier, acceptance});
+    if (acceptance == "failed") {
+      ++summary.replicate_failures;
+      errors.write(fmt::format("replicates of {} ({}): RSD {:.2f} % above the method's limit {:g} %  [replicates]\n",
+                               key.first, key.second, st.rsd_percent, *options.max_rsd_percent));
+    }
   }
   json.write(tasks.empty() ? "],\n  \"replicates\": " : "\n  ],\n  \"replicates\": ");
   json.write(indent(reps.dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "  ").substr(2) + "\n}\n");

@@ -140,9 +140,21 @@ ordered_json analysed_row(const Analysis& a, RunStatus& status) {
                          r.verdict.empty() ? "" : " " + r.verdict);
     }
     result = res;
-    if (!a.results->acceptance_failures.empty() && !eps.empty()) {
-      status = RunStatus::no_result;
-      for (const auto& f : a.results->acceptance_failures) error += (error.empty() ? "acceptance: " : "; ") + f;
+    if (!eps.empty()) {
+      bool out_of_spec = false;
+      for (const auto& r : a.results->results) out_of_spec = out_of_spec || r.verdict == "fail";
+      if (!a.results->acceptance_failures.empty()) {
+        status = RunStatus::no_result;
+        for (const auto& f : a.results->acceptance_failures) error += (error.empty() ? "acceptance: " : "; ") + f;
+      } else if (out_of_spec) {
+        status = RunStatus::out_of_spec;
+        for (const auto& r : a.results->results) {
+          if (r.verdict == "fail") error += fmt::format("{}{} outside its specification", error.empty() ? "" : "; ", r.name);
+        }
+      } else if (status == RunStatus::ok && !a.results->conflicts.empty()) {
+        status = RunStatus::flagged;  // the method and the run disagree about a fact
+        flags += std::string(flags.empty() ? "" : "; ") + "method_conflict";
+      }
     }
   } else if (!a.results_error.empty() && !eps.empty()) {
     status = RunStatus::no_result;

@@ -30,7 +30,8 @@ struct Replicate {
 };
 
 // Replicate statistics of every result, per group (sample id or file-name pattern).
-std::string replicates_text(const std::vector<Analysis>& runs, const method::Method* m, nlohmann::ordered_json* out_json) {
+std::string replicates_text(const std::vector<Analysis>& runs, const method::Method* m, nlohmann::ordered_json* out_json,
+                            bool* replicates_failed) {
   // group -> result name -> values
   std::map<std::string, std::map<std::string, std::vector<Replicate>>> groups;
   std::map<std::string, std::string> units;
@@ -58,6 +59,7 @@ std::string replicates_text(const std::vector<Analysis>& runs, const method::Met
       text += "\n";
       if (s.outlier) text += "    suspect outlier (flagged, kept): " + reps[*s.outlier].run + "\n";
       const bool rsd_failed = m && m->max_rsd_percent && s.rsd_percent > *m->max_rsd_percent;
+      if (rsd_failed && replicates_failed) *replicates_failed = true;
       if (rsd_failed) text += fmt::format("    Acceptance failed: RSD {:.2f} % above the method's {:g} %\n", s.rsd_percent, *m->max_rsd_percent);
       nlohmann::ordered_json j;
       j["group"] = group;
@@ -120,7 +122,11 @@ void add_analyze(CLI::App& app, Action& action) {
           ao.method = m;
           Analysis a = analyze(std::move(run), ao);
           if (!st->quiet && !json_stdout) out << report::to_text(a) << (single ? "" : "\n");
-          failed = failed || a.endpoints.endpoints.empty() || !a.results_error.empty() ||
+          bool out_of_spec = false;
+          if (a.results) {
+            for (const auto& r : a.results->results) out_of_spec = out_of_spec || r.verdict == "fail";
+          }
+          failed = failed || a.endpoints.endpoints.empty() || !a.results_error.empty() || out_of_spec ||
                    (a.results && !a.results->acceptance_failures.empty());
           done.push_back(std::move(a));
         } catch (const InputError& e) {
@@ -132,7 +138,9 @@ void add_analyze(CLI::App& app, Action& action) {
         }
       }
       nlohmann::ordered_json replicates;
-      const std::string rep_text = done.size() > 1 ? replicates_text(done, m ? &*m : nullptr, &replicates) : "";
+      bool rep_failed = false;
+      const std::string rep_text = done.size() > 1 ? replicates_text(done, m ? &*m : nullptr, &replicates, &rep_failed) : "";
+      failed = failed || rep_failed;
       if (!st->quiet && !json_stdout && !rep_text.empty()) out << rep_text;
       if (!st->json.empty()) {
         std::string json;

@@ -167,7 +167,11 @@ void add_batch(CLI::App& app, Action& action) {
             << " run(s) (a bug in veq; see errors.txt and please report it with the file)\n";
         return kExitInternal;
       }
-      return s.failed() > 0 || s.stopped ? kExitFailed : kExitOk;
+      if (s.replicate_failures > 0) {
+        out << fmt::format("  {} replicate group(s) above the method's RSD limit (errors.txt, replicates.csv)\n",
+                           s.replicate_failures);
+      }
+      return s.failed() > 0 || s.stopped || s.replicate_failures > 0 ? kExitFailed : kExitOk;
     };
   });
 }

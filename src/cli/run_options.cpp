@@ -113,7 +113,15 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
 
 std::optional<method::Method> load_method_option(const RunOptions& o) {
   if (o.method_file.empty()) return std::nullopt;
-  return method::load_method(o.method_file);
+  method::Method m = method::load_method(o.method_file);
+  // What the command line says wins over the method too (the user typed it for this run).
+  if (o.sample_volume_mL && m.sample_volume_mL) m.sample_volume_mL = o.sample_volume_mL;
+  if (o.titrant_conc_mol_L) {
+    m.titrant_conc_mol_L = o.titrant_conc_mol_L;
+    m.titrant_conc_u_mol_L = 0.0;  // no uncertainty was given with it
+    m.titer_file.clear();
+  }
+  return m;
 }
 
 void apply_facts(const RunOptions& o, Run& run) {

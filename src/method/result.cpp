@@ -3,6 +3,7 @@
 #include "veq/method/result.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 
 #include <fmt/format.h>
@@ -108,6 +109,44 @@ ResultSet compute_results(const Method& m, const Run& run, const Curve& curve,
   auto fail = [&](std::size_t line, const std::string& msg, const std::string& hint = {}) {
     throw InputError({m.path, line, 0}, msg + " (run " + run.source + ")", hint);
   };
+  // Facts the method states and the run states too: the method's are used, but a
+  // reader must hear about a disagreement (a method picked for the wrong sample).
+  auto differ = [](double a, double b, double rel) { return std::fabs(a - b) > rel * std::max(std::fabs(a), std::fabs(b)); };
+  if (m.sample_volume_mL && run.facts.sample_volume_mL && differ(*m.sample_volume_mL, *run.facts.sample_volume_mL, 0.005)) {
+    out.conflicts.push_back(fmt::format("the method's sample volume {:g} mL is used; the run says {:g} mL",
+                                        *m.sample_volume_mL, *run.facts.sample_volume_mL));
+  }
+  if (m.sample_mass_g && run.facts.sample_mass_g && differ(*m.sample_mass_g, *run.facts.sample_mass_g, 0.005)) {
+    out.conflicts.push_back(fmt::format("the method's sample mass {:g} g is used; the run says {:g} g", *m.sample_mass_g,
+                                        *run.facts.sample_mass_g));
+  }
+  if (m.titrant_conc_mol_L && run.facts.titrant_conc_mol_L &&
+      differ(*m.titrant_conc_mol_L, *run.facts.titrant_conc_mol_L, m.titer_file.empty() ? 0.01 : 0.10)) {
+    out.conflicts.push_back(fmt::format("the method's titrant concentration {:g} mol/L is used; the run says {:g} mol/L",
+                                        *m.titrant_conc_mol_L, *run.facts.titrant_conc_mol_L));
+  }
+  {
+    // The method's titrant (by name) against the run's: base or acid.
+    const std::string name = m.titrant_name;
+    std::string n;
+    for (char c : name) n.push_back(static_cast<char>(std::tolower(static_cast<unsigned char>(c))));
+    TitrantKind method_kind = TitrantKind::unknown;
+    for (const char* b : {"naoh", "koh", "lioh", "hydroxide", "base"}) {
+      if (n.find(b) != std::string::npos) method_kind = TitrantKind::base;
+    }
+    for (const char* a : {"hcl", "h2so4", "hno3", "hclo4", "acid"}) {
+      if (n.find(a) != std::string::npos) method_kind = TitrantKind::acid;
+    }
+    TitrantKind run_kind = run.facts.titrant_kind;
+    if (run_kind == TitrantKind::unknown && curve.signal == SignalKind::ph && !curve.converted_from_mv) {
+      run_kind = curve.direction > 0 ? TitrantKind::base : TitrantKind::acid;
+    }
+    if (method_kind != TitrantKind::unknown && run_kind != TitrantKind::unknown && method_kind != run_kind) {
+      auto with_article = [](TitrantKind k) { return k == TitrantKind::acid ? "an acid" : "a base"; };
+      out.conflicts.push_back(fmt::format("the method titrates with {} ({}), but this run was titrated with {}",
+                                          with_article(method_kind), name, with_article(run_kind)));
+    }
+  }
   if (m.endpoints_required && static_cast<int>(endpoints.size()) < *m.endpoints_required) {
     out.acceptance_failures.push_back(fmt::format("the method requires {} endpoint(s); the run has {}",
                                                   *m.endpoints_required, endpoints.size()));

@@ -218,6 +218,7 @@ std::string to_json(const Analysis& a) {
     if (!a.results_error.empty()) j["result_error"] = a.results_error;
     if (a.results) {
       j["acceptance_failures"] = a.results->acceptance_failures;
+      j["method_conflicts"] = a.results->conflicts;
       if (a.results->titer) {
         const auto& t = *a.results->titer;
         ordered_json tj;

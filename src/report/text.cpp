@@ -99,6 +99,7 @@ std::string to_text(const Analysis& a) {
       for (const auto& n : r.notes) out += "      note: " + n + "\n";
     }
     for (const auto& f : a.results->acceptance_failures) out += "  Acceptance failed: " + f + "\n";
+    for (const auto& c : a.results->conflicts) out += "  Check: " + c + "\n";
     if (a.results->titer) {
       const auto& t = *a.results->titer;
       out += fmt::format("  Titrant {}: {:.5f} mol/L, standard uncertainty {:.5f}",

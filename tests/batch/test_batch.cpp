@@ -380,7 +380,8 @@ TEST_CASE("batch options, statuses and report options: defaults and numbers are 
                                                                 {RunStatus::output_error, "output_error"},
                                                                 {RunStatus::internal_error, "internal_error"},
                                                                 {RunStatus::not_run, "not_run"},
-                                                                {RunStatus::no_result, "no_result"}};
+                                                                {RunStatus::no_result, "no_result"},
+                                                                {RunStatus::out_of_spec, "out_of_spec"}};
   for (std::size_t i = 0; i < table.size(); ++i) {
     CHECK(static_cast<int>(table[i].first) == static_cast<int>(i));
     CHECK(veq::batch::to_string(table[i].first) == table[i].second);

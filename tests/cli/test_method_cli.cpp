@@ -137,3 +137,31 @@ TEST_CASE("several runs of one sample: replicate statistics", "[cli][method]") {
   CHECK(j["replicates"][0]["mean"].get<double>() == veq::test::close(0.0987, 1e-3));
   CHECK(j["replicates"][0]["rsd_acceptance"] == "passed");
 }
+
+TEST_CASE("a result out of specification fails the run (exit 1); method/run conflicts are said", "[cli][method]") {
+  // 0.1 mol/L HCl (20 mL) with 0.1 mol/L NaOH: 3.646 g/L HCl (36.46 g/mol; stoichiometry).
+  veq::test::Sample s;
+  s.V0_mL = 20.0;
+  s.strong_acid = 0.1;
+  s.titrant = 0.1;
+  std::ostringstream f;
+  f << "Sample: SPEC-1\nSample volume: 25 mL\nTitrant: NaOH 0.1 mol/L\nVolume (mL),pH\n";
+  for (double v = 0.0; v <= 28.0; v += 0.05) f << v << "," << veq::test::pH_at_volume(s, v) << "\n";
+  const fs::path run = dir() / "spec.csv";
+  std::ofstream(run) << f.str();
+  const fs::path m = dir() / "spec.toml";
+  std::ofstream(m) << "name = \"spec\"\n[analyte]\nmolar_mass_g_mol = 36.46\n[sample]\nvolume_mL = 20\n"
+                      "[titrant]\nname = \"NaOH\"\nconcentration_mol_L = 0.1\n[[result]]\nname = \"HCl\"\nunit = \"g/L\"\n"
+                      "spec_high = 3.0\n";
+  const Out o = veq_cli({"analyze", run.string(), "--method", m.string(), "--json", "-"});
+  CHECK(o.code == veq::cli::kExitFailed);
+  const auto j = nlohmann::json::parse(o.out);
+  CHECK(j["result"]["spec"]["verdict"] == "fail");
+  CHECK(j["result"]["value"].get<double>() == veq::test::close(3.646, 2e-3));
+  // The method's 20 mL against the file's 25 mL: used, and said.
+  REQUIRE(j["method_conflicts"].size() == 1);
+  CHECK(j["method_conflicts"][0].get<std::string>().find("20 mL is used") != std::string::npos);
+  // --sample-volume wins over the method too.
+  const Out c = veq_cli({"analyze", run.string(), "--method", m.string(), "--sample-volume", "25", "--json", "-"});
+  CHECK(nlohmann::json::parse(c.out)["result"]["value"].get<double>() == veq::test::close(3.646 * 20.0 / 25.0, 2e-3));
+}

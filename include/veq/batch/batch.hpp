@@ -29,8 +29,9 @@ enum class RunStatus : int {
   internal_error = 6,  // a bug in veq while processing it
   not_run = 7,         // the batch was stopped before it
   no_result = 8,       // endpoints found, but the method's result could not be computed or failed acceptance
+  out_of_spec = 9,     // a result outside the method's specification limits (verdict "fail")
 };
-inline constexpr std::size_t kStatusCount = 9;
+inline constexpr std::size_t kStatusCount = 10;
 [[nodiscard]] std::string_view to_string(RunStatus status);
 [[nodiscard]] std::optional<RunStatus> status_from_string(std::string_view name);
 // Every status other than ok and flagged counts as failed (exit code 1).
@@ -100,6 +101,7 @@ struct BatchSummary {
   double elapsed_s = 0.0;                          // [s] wall time of the whole batch
   std::vector<Diagnostic> problems;                // listing problems (also in errors.txt)
   std::filesystem::path index_html;                // where the listing was written
+  std::size_t replicate_failures = 0;              // replicate groups above the method's RSD limit
 
   [[nodiscard]] std::size_t count(RunStatus s) const { return counts[static_cast<std::size_t>(s)]; }
   [[nodiscard]] std::size_t failed() const;

@@ -67,6 +67,7 @@ struct Result {
 struct ResultSet {
   std::vector<Result> results;
   std::vector<std::string> acceptance_failures;  // e.g. too few endpoints
+  std::vector<std::string> conflicts;            // the method and the run disagree about a fact (the method's is used)
   std::optional<TiterRecord> titer;              // for a standardisation
   std::string method_name;
   std::string method_path;
