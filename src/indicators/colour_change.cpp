@@ -224,8 +224,10 @@ ColourChange judge(const Indicator& indicator,
                     "span is not known",
                     t.end_pH));
   } else if (cc.seen_mL && begin.status == CrossingStatus::past_at_start) {
-    notes.push_back(
-        fmt::format("the change had begun before the first reading (pH {:.1f}), so its span is not known", t.begin_pH));
+    const double first = curve.knots_mL.empty() ? t.begin_pH : curve.pH_at_mL(curve.knots_mL.front());
+    notes.push_back(fmt::format("the change begins at pH {:.1f}, before the first reading (pH {:.2f}), so its span "
+                                "is not known",
+                                t.begin_pH, first));
   }
 
   if (cc.error_percent) {
@@ -243,7 +245,8 @@ ColourChange judge(const Indicator& indicator,
             fmt::format("its colour change is too gradual for a fixed correction ({:.1f} drops)", *cc.span_drops));
       }
     }
-    if (*cc.error_uncertainty_percent > cc.tolerance_percent) {
+    // Only when the uncertainty could turn the verdict (the interval straddles the tolerance).
+    if (*cc.error_uncertainty_percent > cc.tolerance_percent && err - *cc.error_uncertainty_percent < cc.tolerance_percent) {
       notes.push_back(
           fmt::format("the readings resolve the error only to ±{:.2f} %, more than the tolerance; finer "
                       "dosing near the endpoint would settle the verdict",

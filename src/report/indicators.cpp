@@ -2,6 +2,7 @@
 // Indicator results in the run reports, the indicator table listing and the cross-check report.
 #include "veq/report/indicators.hpp"
 
+#include <algorithm>
 #include <fmt/format.h>
 
 #include <cmath>
@@ -118,8 +119,17 @@ std::string endpoint_indicators_line(const Analysis& a, int endpoint_index) {
   if (e->candidates.empty()) {
     line += fmt::format("none in the table changes colour at pH {:.2f}", *e->endpoint_pH);
   } else {
-    for (std::size_t i = 0; i < e->candidates.size() && i < kShown; ++i) {
-      line += (i ? ", " : "") + short_change(e->candidates[i]);
+    // The line leads with the indicators a chemist would use: suitable first, then usable
+    // with a correction, then the rest (each group closest midpoint first, as listed).
+    std::vector<std::size_t> order(e->candidates.size());
+    for (std::size_t i = 0; i < order.size(); ++i) order[i] = i;
+    auto rank = [&](std::size_t i) {
+      const auto v = e->candidates[i].verdict;
+      return v == indicators::Verdict::suitable ? 0 : v == indicators::Verdict::usable_with_correction ? 1 : 2;
+    };
+    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return rank(a) < rank(b); });
+    for (std::size_t i = 0; i < order.size() && i < kShown; ++i) {
+      line += (i ? ", " : "") + short_change(e->candidates[order[i]]);
     }
     if (e->candidates.size() > kShown) line += fmt::format(", {} more", e->candidates.size() - kShown);
   }
