@@ -207,6 +207,98 @@ std::string section_results(const Analysis& a) {
   return s;
 }
 
+// What the lab reports: each result of the method with its expanded uncertainty, verdict and budget.
+std::string section_method_results(const Analysis& a) {
+  if (!a.results && a.results_error.empty()) return {};
+  std::string s = "<section id=\"method-results\">\n<h2>Reported results</h2>\n";
+  if (!a.results) {
+    return s + "<p class=\"none\">No result: " + esc(a.results_error) + "</p>\n</section>\n";
+  }
+  const auto& rs = *a.results;
+  s += "<p>Method: <strong>" + esc(rs.method_name) + "</strong> (" + esc(rs.method_path) + ")</p>\n";
+  s += "<table class=\"results\">\n<thead><tr><th>Result</th><th>Value</th><th>U (k = 2)</th><th>Unit</th>"
+       "<th>Specification</th><th>Verdict</th><th>From</th></tr></thead>\n<tbody>\n";
+  for (const auto& r : rs.results) {
+    std::string spec;
+    if (r.spec_low) spec += fmt::format("&#8805; {:.{}f}", *r.spec_low, r.decimals);
+    if (r.spec_high) spec += fmt::format("{}&#8804; {:.{}f}", spec.empty() ? "" : ", ", *r.spec_high, r.decimals);
+    const std::string from = r.at_pH ? fmt::format("volume at pH {:g}: {:.3f} mL", *r.at_pH, r.endpoint_volume_mL)
+                                     : fmt::format("endpoint {} ({}): {:.4f} mL", r.endpoint_index,
+                                                   esc(r.volume_source), r.endpoint_volume_mL);
+    s += fmt::format("<tr><td>{}</td><td class=\"num\"><strong>{:.{}f}</strong></td><td class=\"num\">{:.{}f}</td>"
+                     "<td>{}</td><td>{}</td><td class=\"verdict-{}\">{}</td><td>{}</td></tr>\n",
+                     esc(r.name), r.value, r.decimals, r.expanded_uncertainty, r.decimals,
+                     esc(method::to_string(r.unit)), spec.empty() ? std::string("&#8212;") : spec,
+                     esc(r.verdict.empty() ? "none" : r.verdict), esc(r.verdict.empty() ? "no limits" : r.verdict), from);
+  }
+  s += "</tbody>\n</table>\n";
+  for (const auto& r : rs.results) {
+    s += "<h3>Uncertainty budget: " + esc(r.name) + "</h3>\n<p class=\"note\">" + esc(r.formula) +
+         " (first-order propagation, GUM; tolerances as rectangular distributions)</p>\n";
+    s += "<table class=\"budget\">\n<thead><tr><th>Input</th><th>Value</th><th>Standard uncertainty</th>"
+         "<th>Contribution</th><th>Share of u&#178;</th></tr></thead>\n<tbody>\n";
+    for (const auto& b : r.budget) {
+      s += fmt::format("<tr><td>{}</td><td class=\"num\">{:.6g} {}</td><td class=\"num\">{:.3g}</td>"
+                       "<td class=\"num\">{:.3g}</td><td class=\"num\">{:.1f} %</td></tr>\n",
+                       esc(b.name), b.value, esc(b.unit), b.std_uncertainty, b.contribution, b.percent);
+    }
+    s += fmt::format("<tr><td><strong>combined</strong></td><td></td><td></td><td class=\"num\"><strong>{:.3g}</strong>"
+                     "</td><td class=\"num\">100 %</td></tr>\n</tbody>\n</table>\n",
+                     r.uncertainty);
+    for (const auto& n : r.notes) s += "<p class=\"note\">Note: " + esc(n) + "</p>\n";
+  }
+  for (const auto& c : rs.conflicts) s += "<p class=\"warn\">Check: " + esc(c) + "</p>\n";
+  for (const auto& f : rs.acceptance_failures) s += "<p class=\"warn\">Acceptance failed: " + esc(f) + "</p>\n";
+  if (rs.titer) {
+    const auto& t = *rs.titer;
+    s += fmt::format("<p>Titrant {}: <strong>{:.6g} mol/L</strong>, standard uncertainty {:.2g} mol/L{}.</p>\n",
+                     esc(t.titrant), t.concentration_mol_L, t.uncertainty_mol_L,
+                     t.nominal_mol_L > 0 ? fmt::format(" (titer {:.4f} of the nominal {:g})",
+                                                       t.concentration_mol_L / t.nominal_mol_L, t.nominal_mol_L)
+                                         : std::string());
+  }
+  return s + "</section>\n";
+}
+
+// The colour indicators that change colour at each endpoint, with their error.
+std::string section_indicators(const Analysis& a) {
+  bool any = false;
+  for (const auto& e : a.indicators.endpoints) any = any || !e.candidates.empty();
+  if (!any) return {};
+  std::string s = "<section id=\"indicators\">\n<h2>Colour indicators</h2>\n";
+  s += "<p class=\"note\">For a manual titration of the same sample: where each indicator's colour change is "
+       "first seen, its indicator error against the endpoint, and how many drops the whole change spans (judged "
+       "on the " + esc(a.indicators.curve_method) + " curve).</p>\n";
+  auto swatch = [](const indicators::Colour& c) {
+    return fmt::format("<span class=\"swatch\" style=\"background:{}\"></span>{}", esc(c.srgb_hex), esc(c.name));
+  };
+  for (const auto& e : a.indicators.endpoints) {
+    if (e.candidates.empty()) continue;
+    s += fmt::format("<h3>Endpoint {} at {:.3f} mL{}</h3>\n", e.endpoint_index, e.equivalence_mL,
+                     e.endpoint_pH ? fmt::format(", pH {:.2f}", *e.endpoint_pH) : std::string());
+    s += "<table class=\"indicators\">\n<thead><tr><th>Indicator</th><th>Range (pH)</th><th>Colours</th>"
+         "<th>Seen at</th><th>Error</th><th>Change spans</th><th>Verdict</th><th>Note</th></tr></thead>\n<tbody>\n";
+    for (const auto& c : e.candidates) {
+      const auto& ind = c.indicator;
+      s += fmt::format(
+          "<tr><td>{}</td><td class=\"num\">{:.1f}&#8211;{:.1f}</td><td>{} &#8594; {}</td><td class=\"num\">{}</td>"
+          "<td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td><td>{}</td></tr>\n",
+          esc(ind.name), ind.low_pH, ind.high_pH, swatch(ind.acid_colour), swatch(ind.base_colour),
+          c.seen_mL ? fmt::format("{:.3f} mL (pH {:.1f})", *c.seen_mL, c.transition.seen_pH) : std::string("&#8212;"),
+          c.error_percent ? fmt::format("{:+.2f} %", *c.error_percent) : std::string("&#8212;"),
+          c.span_mL ? fmt::format("{:.3f} mL ({:.1f} drops)", *c.span_mL, c.span_drops.value_or(0.0)) : std::string("&#8212;"),
+          esc(indicators::to_string(c.verdict)), esc(c.note));
+    }
+    s += "</tbody>\n</table>\n";
+    if (!e.also_suitable.empty()) {
+      std::string names;
+      for (const auto& n : e.also_suitable) names += (names.empty() ? "" : ", ") + esc(n);
+      s += "<p>Also suitable: " + names + ".</p>\n";
+    }
+  }
+  return s + "</section>\n";
+}
+
 svg::Points curve_points(const Curve& c, bool spikes) {
   svg::Points p;
   for (std::size_t i = 0; i < c.volume_mL.size(); ++i) {
@@ -251,6 +343,20 @@ std::string section_curve(const Analysis& a, const HtmlOptions& o) {
   svg::Plot plot("curve", "Titration curve of " + a.run.facts.sample_id, o.plot_width_px, o.plot_height_px);
   plot.x_axis(x0, x1, "Titrant added [mL]");
   plot.y_axis(y0, y1, c.signal == SignalKind::ph ? (c.converted_from_mv ? "pH (from mV)" : "pH") : "E [mV]");
+  // The transition band of each suitable (or correctable) indicator, in its base-side colour.
+  std::vector<std::string> banded;
+  for (const auto& ep : a.indicators.endpoints) {
+    for (const auto& cc : ep.candidates) {
+      if (cc.verdict == indicators::Verdict::unsuitable) continue;
+      if (std::find(banded.begin(), banded.end(), cc.indicator.name) != banded.end()) continue;
+      banded.push_back(cc.indicator.name);
+      const auto& col = cc.indicator.base_colour.name == "colourless" ? cc.indicator.acid_colour : cc.indicator.base_colour;
+      plot.y_band(cc.indicator.low_pH, cc.indicator.high_pH, svg::fill(col.srgb_hex, 0.16));
+      plot.legend(cc.indicator.name + " (" + fmt::format("{:.1f}-{:.1f}", cc.indicator.low_pH, cc.indicator.high_pH) + ")",
+                  svg::fill(col.srgb_hex, 0.5));
+      if (banded.size() >= 2) break;
+    }
+  }
   mark_endpoints(plot, a, y1);
   plot.polyline(pts, svg::stroke(kInk, 1.2, {}, 0.6));
   plot.dots(pts, 1.8, svg::fill(kInk));
@@ -261,7 +367,9 @@ std::string section_curve(const Analysis& a, const HtmlOptions& o) {
   std::string cap = fmt::format("Titration curve: {} readings", c.volume_mL.size());
   if (!spikes.empty())
     cap += fmt::format(", {} isolated spike(s) circled and left out of endpoint detection", spikes.size());
-  cap += ". Shaded: each endpoint &#177; its standard uncertainty.";
+  cap += ". Shaded: each endpoint &#177; its standard uncertainty";
+  if (!banded.empty()) cap += "; horizontal bands: the transition ranges of suitable colour indicators";
+  cap += ".";
   return "<section id=\"curve\">\n<h2>Titration curve</h2>\n" + figure(plot.finish(), cap) + "</section>\n";
 }
 
@@ -504,6 +612,13 @@ caption { text-align: left; font-weight: 600; padding: 0.3rem 0; }
 .flag { display: inline-block; border: 1px solid var(--warn); color: var(--warn); border-radius: 3px; padding: 0 0.3rem;
   font-size: 0.8rem; margin: 0 0.15rem 0.1rem 0; }
 .none { font-weight: 600; color: var(--warn); }
+.warn { color: var(--warn); font-weight: 600; }
+.verdict-pass { color: #17643a; font-weight: 600; }
+.verdict-fail { color: #a12a2a; font-weight: 600; }
+.verdict-borderline { color: var(--warn); font-weight: 600; }
+.swatch { display: inline-block; width: 0.8em; height: 0.8em; border: 1px solid var(--line); margin-right: 0.25em;
+  vertical-align: -0.05em; }
+section { overflow-x: auto; }
 figure { margin: 0.8rem 0 1.2rem; }
 svg.plot { max-width: 100%; height: auto; display: block; }
 dt { margin-top: 0.4rem; }
@@ -540,6 +655,7 @@ std::string to_html(const Analysis& a, const HtmlOptions& options) {
   if (const auto p = options.validate(); !p.empty()) throw InputError({"report options", 0, 0}, p.front());
   std::string body;
   body += section_header(a, options);
+  body += section_method_results(a);
   body += section_results(a);
   if (!a.curve.volume_mL.empty()) body += section_curve(a, options);
   // Later stages add their sections here, each only when its data exist:
@@ -547,6 +663,7 @@ std::string to_html(const Analysis& a, const HtmlOptions& options) {
   // transition bands (drawn on the curve) after the Gran plots.
   if (!a.endpoints.derivatives.d1.empty()) body += section_derivatives(a, options);
   body += section_gran(a, options);
+  body += section_indicators(a);
   body += section_flags(a);
   body += section_warnings(a);
   body += section_details(a);

@@ -181,6 +181,20 @@ void Plot::x_band(double x0, double x1, const Style& style) {
                         attributes(style));
 }
 
+void Plot::y_band(double y0, double y1, const Style& style) {
+  if (!std::isfinite(y0) || !std::isfinite(y1)) return;
+  double a = clamp_px(y_px(std::max(y0, y1)), m_h), b = clamp_px(y_px(std::min(y0, y1)), m_h);
+  a = std::max(a, m_top);
+  b = std::min(b, m_h - m_bottom);
+  if (b - a < 1.0) return;  // outside the plotted range
+  m_body += fmt::format("<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"{}/>\n",
+                        coord(m_left),
+                        coord(a),
+                        coord(m_w - m_left - m_right),
+                        coord(b - a),
+                        attributes(style));
+}
+
 void Plot::vline(double x, const Style& style) {
   if (!std::isfinite(x)) return;
   const double px = x_px(x);

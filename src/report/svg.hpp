@@ -70,6 +70,8 @@ class Plot {
   void segment(double x0, double y0, double x1, double y1, const Style& style);
   // A vertical band from x0 to x1 over the whole height (at least 1 px wide).
   void x_band(double x0, double x1, const Style& style);
+  // A horizontal band from y0 to y1 over the whole width (at least 1 px high).
+  void y_band(double y0, double y1, const Style& style);
   void vline(double x, const Style& style);
   void hline(double y, const Style& style);
   // Text at a data position, anchored "start", "middle" or "end".

@@ -320,6 +320,14 @@ TEST_CASE("veq batch with a method: results and replicate statistics in the summ
   CHECK(slurp(root / "out" / "replicates.csv").find("LOT-7,HCl,mol/L,3,") != std::string::npos);
   CHECK(slurp(root / "out" / "index.html").find("<h2>Replicates</h2>") != std::string::npos);
   CHECK(summary["runs"][0]["results"][0]["name"] == "HCl");
+  // Each report carries the reported result, its budget and the indicators, and stays well-formed.
+  const std::string report = slurp(root / "out" / summary["runs"][0]["report"].get<std::string>());
+  CHECK(report.find("Reported results") != std::string::npos);
+  CHECK(report.find("Uncertainty budget") != std::string::npos);
+  CHECK(report.find("Colour indicators") != std::string::npos);
+  const auto x = veq::test::check_xml(report);
+  INFO(x.error);
+  CHECK(x.ok);
 }
 
 namespace {
