@@ -273,3 +273,12 @@ ordered_json json_entry(const ordered_json& row,
 }
 
 }  // namespace veq::batch::detail
+
+namespace veq::batch {
+
+report::SummaryRow summary_row_of(const Analysis& analysis, const std::string& file, RunStatus& status) {
+  const auto row = detail::analysed_row(analysis, status);
+  return detail::row_from(row, file, std::string(), nullptr);
+}
+
+}  // namespace veq::batch

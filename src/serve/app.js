@@ -24,20 +24,29 @@ function link(parent, href, text) {
 
 function showRun(run) {
   const tr = document.createElement("tr");
-  if (run.status === "error") tr.className = "status-error";
+  if (run.status === "input_error") tr.className = "status-error";
   cell(tr, run.sample_id || "");
   cell(tr, run.file);
-  if (run.status === "error") {
+  if (run.status === "input_error") {
     const td = cell(tr, run.error + (run.hint ? " (" + run.hint + ")" : ""));
     td.colSpan = 5;
   } else {
     const eps = run.endpoints || [];
     cell(tr, eps.map((e) => e.volume_mL.toFixed(3) + " ± " + e.uncertainty_mL.toPrecision(2)).join("; ") || "none", "num");
     cell(tr, eps.map((e) => (e.pH != null ? e.pH.toFixed(2) : e.mV.toFixed(1) + " mV")).join("; "), "num");
-    const res = (run.results || [])[0];
-    cell(tr, res ? res.value.toFixed(res.decimals) + " " + res.unit + " (U " + res.expanded_uncertainty.toPrecision(2) + ")"
-                 : (run.result_error || ""), "num");
-    cell(tr, res && res.spec && res.spec.verdict ? res.spec.verdict : "", res && res.spec ? res.spec.verdict : "");
+    // Every result of the method, one per line.
+    const results = run.results || [];
+    const resCell = cell(tr, results.length ? "" : (run.result_error || ""), "num");
+    const verdictCell = cell(tr, "");
+    results.forEach((res, i) => {
+      if (i > 0) { resCell.appendChild(document.createElement("br")); verdictCell.appendChild(document.createElement("br")); }
+      resCell.appendChild(document.createTextNode(res.name + ": " + res.value.toFixed(res.decimals) + " " + res.unit +
+                                                  " (U " + res.expanded_uncertainty.toFixed(res.decimals) + ")"));
+      const v = document.createElement("span");
+      v.textContent = res.spec && res.spec.verdict ? res.spec.verdict : "";
+      if (res.spec && res.spec.verdict) v.className = res.spec.verdict;
+      verdictCell.appendChild(v);
+    });
     const flags = cell(tr, "");
     for (const e of eps) for (const f of e.flags || []) {
       const s = document.createElement("span");

@@ -19,6 +19,7 @@
 
 #include "data/embedded.hpp"
 #include "veq/analyze.hpp"
+#include "veq/batch/batch.hpp"
 #include "veq/core/constants.hpp"
 #include "veq/ingest/reader.hpp"
 #include "veq/method/method.hpp"
@@ -273,7 +274,7 @@ struct Server::Impl {
 
     http.Get("/api/results.csv", [this](const httplib::Request& req, httplib::Response& res) {
       common_headers(res);
-      std::string out = "id,file,status,endpoints,result,flags,error\r\n";
+      std::string out = report::summary_csv_header();
       const std::string ids = req.get_param_value("ids");
       std::size_t start = 0, count = 0;
       while (start <= ids.size() && count < 10000) {
@@ -317,11 +318,18 @@ struct Server::Impl {
     }
     ordered_json runs = ordered_json::array();
     std::vector<Analysis> done;
+    std::map<std::uint64_t, std::string> seen;  // content hash -> first file with it
     for (auto it = range.first; it != range.second; ++it) {
       const httplib::MultipartFormData& f = it->second;
       const std::string name = display_name(f.filename);
       ordered_json r;
       r["file"] = name;
+      // The same file twice is not two replicates.
+      const std::uint64_t hash = batch::hash64(f.content);
+      const auto dup = seen.find(hash);
+      const bool duplicate = dup != seen.end();
+      if (duplicate) r["duplicate_of"] = dup->second;
+      else seen.emplace(hash, name);
       Entry entry;
       entry.name = name;
       try {
@@ -342,39 +350,34 @@ struct Server::Impl {
         entry.json = report::to_json(a);
         entry.text = report::to_text(a);
         entry.html = report::to_html(a);
-        const bool ok = !a.endpoints.endpoints.empty() && a.results_error.empty();
-        r["status"] = ok ? "ok" : a.endpoints.endpoints.empty() ? "no_endpoint" : "no_result";
         r["sample_id"] = a.run.facts.sample_id;
         const auto full = ordered_json::parse(entry.json);
         r["endpoints"] = full["endpoints"];
         r["results"] = full.contains("results") ? full["results"] : ordered_json::array();
         if (!a.results_error.empty()) r["result_error"] = a.results_error;
         r["warnings"] = full["warnings"];
-        std::string flags, result;
-        for (const auto& e : a.endpoints.endpoints) {
-          for (const auto& fl : e.flags) flags += (flags.empty() ? "" : " ") + fl;
-        }
-        if (a.results && !a.results->results.empty()) {
-          const auto& first = a.results->results.front();
-          result = fmt::format("{:.{}f} {}", first.value, first.decimals, method::to_string(first.unit));
-        }
-        std::string eps;
-        for (const auto& e : a.endpoints.endpoints) eps += fmt::format("{}{:.4f}", eps.empty() ? "" : " ", e.volume_mL);
-        entry.csv_row = report::csv_field(entry.sample_id) + "," + report::csv_field(name) + "," + report::csv_field(r["status"].get<std::string>()) + "," +
-                        report::csv_field(eps) + "," + report::csv_field(result) + "," + report::csv_field(flags) + "," + report::csv_field(a.results_error) + "\r\n";
-        done.push_back(std::move(a));
+        // The same row and status as veq batch writes for this run.
+        batch::RunStatus status = batch::RunStatus::ok;
+        const report::SummaryRow row = batch::summary_row_of(a, name, status);
+        r["status"] = std::string(batch::to_string(status));
+        entry.csv_row = report::summary_csv_row(row);
+        if (!duplicate) done.push_back(std::move(a));
       } catch (const InputError& e) {
-        r["status"] = "error";
+        r["status"] = std::string(batch::to_string(batch::RunStatus::input_error));
         r["error"] = e.what();
         if (!e.hint().empty()) r["hint"] = e.hint();
         entry.json = ordered_json{{"error", e.what()}, {"hint", e.hint()}}.dump(2) + "\n";
         entry.text = std::string("veq: error: ") + e.what() + "\n";
-        entry.csv_row = report::csv_field("") + "," + report::csv_field(name) + "," + report::csv_field("error") + ",\"\",\"\",\"\"," + report::csv_field(e.what()) + "\r\n";
+        report::SummaryRow row;
+        row.file = name;
+        row.status = std::string(batch::to_string(batch::RunStatus::input_error));
+        row.error = e.what();
+        entry.csv_row = report::summary_csv_row(row);
       }
       const std::string id = store.add(std::move(entry));
       r["id"] = id;
       r["downloads"] = {{"json", "/api/run/" + id + ".json"}, {"text", "/api/run/" + id + ".txt"}};
-      if (r["status"] != "error") {
+      if (r["status"] != "input_error") {
         r["downloads"]["html"] = "/api/run/" + id + ".html";
         r["report"] = "/report/" + id;
       }

@@ -90,7 +90,7 @@ TEST_CASE("upload page: good and bad files in one upload", "[serve]") {
   REQUIRE(good["endpoints"].size() == 1);
   CHECK(std::fabs(good["endpoints"][0]["volume_mL"].get<double>() - 20.0) < 0.01);  // stoichiometry
   const auto& bad = j["runs"][1];
-  CHECK(bad["status"] == "error");
+  CHECK(bad["status"] == "input_error");  // the same status names as veq batch
   CHECK(bad["error"].get<std::string>().rfind("bad.csv:3:", 0) == 0);  // file:line of the bad cell
   // Downloads of the stored result.
   auto json = c.Get(good["downloads"]["json"].get<std::string>().c_str());
@@ -99,7 +99,8 @@ TEST_CASE("upload page: good and bad files in one upload", "[serve]") {
   CHECK(nlohmann::json::parse(json->body)["schema"] == "veq.run/1");
   auto csv = c.Get(("/api/results.csv?ids=" + good["id"].get<std::string>() + "," + bad["id"].get<std::string>()).c_str());
   REQUIRE(csv);
-  CHECK(csv->body.find("WEB-1,good.csv,ok,") != std::string::npos);
+  CHECK(csv->body.rfind("id,file,status,endpoints,result,flags,error\r\n", 0) == 0);  // summary.csv's columns
+  CHECK(csv->body.find("WEB-1,good.csv,ok,1,") != std::string::npos);
   CHECK(c.Get("/api/run/0123456789abcdef0123456789abcdef.json")->status == 404);
 }
 
@@ -128,7 +129,7 @@ TEST_CASE("upload page: oversize files and requests are refused with a message",
   REQUIRE(r);
   REQUIRE(r->status == 200);
   const auto j = nlohmann::json::parse(r->body);
-  CHECK(j["runs"][0]["status"] == "error");
+  CHECK(j["runs"][0]["status"] == "input_error");
   CHECK(j["runs"][0]["error"].get<std::string>().find("limit") != std::string::npos);
   // A request larger than the server takes at all: 413, the server stays up.
   auto huge = c.Post("/api/analyze", files({{"huge.csv", std::string(200000, '1')}}));

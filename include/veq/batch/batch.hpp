@@ -14,6 +14,7 @@
 #include "veq/analyze.hpp"
 #include "veq/batch/listing.hpp"
 #include "veq/ingest/reader.hpp"
+#include "veq/report/summary.hpp"
 
 namespace veq::batch {
 
@@ -106,6 +107,10 @@ struct BatchSummary {
   [[nodiscard]] std::size_t count(RunStatus s) const { return counts[static_cast<std::size_t>(s)]; }
   [[nodiscard]] std::size_t failed() const;
 };
+
+// The summary row of one analysed run and its status, as veq batch lists it
+// (used by the upload page too, so that its table says the same).
+[[nodiscard]] report::SummaryRow summary_row_of(const Analysis& analysis, const std::string& file, RunStatus& status);
 
 // Runs every file of the folder (this shard) on `jobs` threads and writes, in
 // output_dir: runs/<stem>/result.json, report.html and manifest.json per run
