@@ -51,6 +51,35 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_option("--drop-volume", o.drop_volume_mL, "Volume of one drop from the burette [mL] (default 0.05)")
       ->group("Indicators")
       ->check(CLI::Range(0.001, 1.0));
+  const char* fit = "Charge-balance fit (needs the sample volume and titrant concentration)";
+  cmd->add_flag("--no-fit", o.no_fit, "Do not fit the curve")->group(fit);
+  cmd->add_option("--model", o.model,
+                  "Fit this model only: strong_acid, weak_acid, diprotic_acid, triprotic_acid, strong_weak_acid, "
+                  "strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, or a substance "
+                  "of the analyte table (e.g. KHP) (default: chosen by AICc)")
+      ->group(fit);
+  cmd->add_flag("--fit-titer", o.fit_titer,
+                "Fit the titrant factor (needs a standardisation method giving the standard's mass and molar mass)")
+      ->group(fit);
+  cmd->add_flag("--fit-carbonate", o.fit_carbonate, "Fit the carbonate fraction of a base titrant")->group(fit);
+  cmd->add_flag("--fix-electrode", o.fix_electrode,
+                "Hold the electrode: offset 0 (pH), or Nernst slope and the best starting E0 (mV)")
+      ->group(fit);
+  cmd->add_option("--fit-hold", o.fit_hold, "Hold a parameter at a value, NAME=VALUE (e.g. pKa1=2.95); repeatable")
+      ->group(fit);
+  cmd->add_option("--fit-loss", o.fit_loss, "Robust loss: huber (default), cauchy or none")
+      ->group(fit)
+      ->check(CLI::IsMember({"huber", "cauchy", "none"}));
+  cmd->add_option("--fit-loss-scale", o.fit_loss_scale, "Loss threshold in reading-noise SDs (default 3)")
+      ->group(fit)
+      ->check(CLI::Range(0.1, 100.0));
+  cmd->add_option("--fit-criterion", o.fit_criterion, "Model selection criterion: aicc (default) or bic")
+      ->group(fit)
+      ->check(CLI::IsMember({"aicc", "bic"}));
+  cmd->add_flag("--fit-ideal", o.fit_ideal, "Fit with activity coefficients 1 (default: Davies)")->group(fit);
+  cmd->add_option("--ionic-strength", o.ionic_strength_mol_L, "Background electrolyte of the sample, as ionic strength [mol/L]")
+      ->group(fit)
+      ->check(CLI::Range(0.0, 5.0));
 }
 
 ingest::IngestOptions ingest_options(const RunOptions& o) {
@@ -99,6 +128,27 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
     ao.gran.window_mL = std::make_pair(from, to);
   }
   if (o.drop_volume_mL) ao.indicators.drop_volume_mL = *o.drop_volume_mL;
+  ao.fit.enabled = !o.no_fit;
+  ao.fit.model = o.model;
+  ao.fit.fit_titer = o.fit_titer;
+  ao.fit.fit_carbonate = o.fit_carbonate;
+  ao.fit.fit_electrode = !o.fix_electrode;
+  for (const std::string& h : o.fit_hold) {
+    const auto eq = h.find('=');
+    double value = 0;
+    char extra = 0;
+    if (eq == std::string::npos || eq == 0 || std::sscanf(h.c_str() + eq + 1, "%lf%c", &value, &extra) != 1 ||
+        !std::isfinite(value)) {
+      throw InputError({"--fit-hold", 0, 0}, "'" + h + "' is not of the form NAME=VALUE", "e.g. --fit-hold pKa1=2.95");
+    }
+    ao.fit.hold.emplace_back(h.substr(0, eq), value);
+  }
+  if (o.fit_loss == "cauchy") ao.fit.loss = fit::LossKind::cauchy;
+  if (o.fit_loss == "none") ao.fit.loss = fit::LossKind::none;
+  if (o.fit_loss_scale) ao.fit.loss_scale = *o.fit_loss_scale;
+  if (o.fit_criterion == "bic") ao.fit.criterion = fit::Criterion::bic;
+  if (o.fit_ideal) ao.fit.activity = chem::ActivityModel::ideal;
+  if (o.ionic_strength_mol_L) ao.fit.background_ionic_strength_mol_L = *o.ionic_strength_mol_L;
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   return ao;
 }

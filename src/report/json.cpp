@@ -7,6 +7,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "report/fit_sections.hpp"
 #include "report/indicator_sections.hpp"
 
 namespace veq::report {
@@ -195,6 +196,7 @@ std::string to_json(const Analysis& a) {
       if (a.gran[i].before) methods["gran"] = gran_json(*a.gran[i].before);
       if (a.gran[i].after) methods["gran_after"] = gran_json(*a.gran[i].after);
     }
+    detail::add_endpoint_fit(methods, a, e.index);
     ej["methods"] = methods;
     ej["consensus_methods"] = e.consensus_methods;
     ej["peak_slope"] = significant(e.peak_slope, 6);
@@ -204,6 +206,7 @@ std::string to_json(const Analysis& a) {
     eps.push_back(ej);
   }
   j["endpoints"] = eps;
+  j["fit"] = detail::fit_json(a);
   if (a.results || !a.results_error.empty()) {
     ordered_json mj;
     mj["name"] = a.results ? a.results->method_name : std::string();

@@ -370,7 +370,7 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   return out;
 }
 
-Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
+Consensus consensus(const Endpoint& e, const GranEndpoint& g, const std::optional<VolumeEstimate>& fitted) {
   struct Est {
     std::string name;
     double v, u;
@@ -380,9 +380,10 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
   const bool d_flagged = std::any_of(e.flags.begin(), e.flags.end(), [](const std::string& f) {
     return f == kFlagEdge || f == kFlagFewPoints;
   });
-  all.push_back({"derivative", e.volume_mL, e.uncertainty_mL, d_flagged});
+  all.push_back({"derivative", e.derivative_volume_mL, e.derivative_uncertainty_mL, d_flagged});
   if (g.before && g.before->linear) all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
   if (g.after && g.after->linear) all.push_back({"gran_after", g.after->volume_mL, g.after->uncertainty_mL, false});
+  if (fitted) all.push_back({"fit", fitted->volume_mL, fitted->uncertainty_mL, false});
   const bool any_clean = std::any_of(all.begin(), all.end(), [](const Est& x) { return !x.flagged; });
   std::vector<Est> used;
   for (const auto& x : all) {

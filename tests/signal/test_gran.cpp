@@ -179,8 +179,8 @@ TEST_CASE("missing sample volume: Gran is skipped with a warning, never guessed"
 
 TEST_CASE("consensus: inverse-variance mean, disagreement flagged", "[signal][gran]") {
   veq::signal::Endpoint e;
-  e.volume_mL = 10.00;
-  e.uncertainty_mL = 0.02;
+  e.derivative_volume_mL = 10.00;
+  e.derivative_uncertainty_mL = 0.02;
   veq::signal::GranEndpoint g;
   g.before = veq::signal::GranBranch{};
   g.before->volume_mL = 10.01;
@@ -193,6 +193,12 @@ TEST_CASE("consensus: inverse-variance mean, disagreement flagged", "[signal][gr
   CHECK_FALSE(c.disagree);
   g.before->volume_mL = 10.10;  // 0.10 apart, combined expanded uncertainty 2 x 0.022 = 0.045
   CHECK(veq::signal::consensus(e, g).disagree);
+  // A fitted estimate joins the same mean: (10.00/0.02^2 + 10.01/0.01^2 + 10.004/0.005^2) / (sum of weights).
+  g.before->volume_mL = 10.01;
+  const auto f = veq::signal::consensus(e, g, veq::signal::VolumeEstimate{10.004, 0.005});
+  const double w1 = 1 / 0.0004, w2 = 1 / 0.0001, w3 = 1 / 0.000025;
+  CHECK(f.volume_mL == veq::test::close((10.00 * w1 + 10.01 * w2 + 10.004 * w3) / (w1 + w2 + w3), 1e-9));
+  CHECK(f.methods == std::vector<std::string>{"derivative", "gran_before", "fit"});
 }
 
 TEST_CASE("Gran default options are pinned", "[options]") {
