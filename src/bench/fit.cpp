@@ -7,6 +7,7 @@
 #include <functional>
 #include <vector>
 
+#include "fit/balance.hpp"
 #include "veq/analyze.hpp"
 #include "veq/chem/simulate.hpp"
 #include "veq/fit/fit.hpp"
@@ -96,10 +97,71 @@ Prepared prepare(const veq::Run& run) {
 
 }  // namespace
 
+// Per reading, what re-solving the chemistry costs when the parameters change a little (a fitter's inner
+// loop): chem's bracketing solver warm-started from the same reading's last solution; the fit's Newton
+// step from it; and chem's closed form V(pH), the alternative (residuals in volume).
+void per_point_costs() {
+  chem::Sample s;
+  chem::Analyte a;
+  a.conc_mol_L = 0.05;
+  a.pKa_25C = {4.2, 8.8};
+  s.analytes = {a};
+  chem::Titrant t;
+  const chem::Model<double> m = chem::build_model(s, t);
+  std::vector<double> volumes;
+  for (int i = 0; i < 200; ++i) volumes.push_back(32.5 * i / 199.0);
+  std::vector<chem::Equilibrium> states(volumes.size());
+  {
+    const chem::Titration<double> tt(m);
+    for (std::size_t i = 0; i < volumes.size(); ++i) (void)tt.pH(volumes[i], &states[i]);
+  }
+  int set = 0;
+  auto perturbed = [&] {
+    chem::Model<double> q = m;
+    const double step = (++set % 2 == 0 ? 1.0 : -1.0) * 1e-3;
+    q.protolytes[0].pKa[1] += step;
+    q.protolytes[0].conc_mol_L *= 1.0 + step;
+    return q;
+  };
+  std::vector<chem::Equilibrium> w1 = states, w2 = states;
+  const double bracketed = median_us(41, [&] {
+    const chem::Titration<double> tt(perturbed());
+    double sum = 0;
+    for (std::size_t i = 0; i < volumes.size(); ++i) sum += tt.pH(volumes[i], &w1[i]);
+    return sum;
+  });
+  long newton_iterations = 0, solves = 0;
+  const double newton = median_us(41, [&] {
+    const veq::fit::detail::FastBalance fb(perturbed());
+    chem::detail::BalanceJacobian jac;
+    double sum = 0;
+    for (std::size_t i = 0; i < volumes.size(); ++i) {
+      if (fb.newton(volumes[i], w2[i], jac)) {
+        newton_iterations += w2[i].root_evaluations;
+        ++solves;
+      }
+      sum += w2[i].pH();
+    }
+    return sum;
+  });
+  const double closed = median_us(41, [&] {
+    const chem::Titration<double> tt(perturbed());
+    double sum = 0;
+    for (int i = 0; i < 200; ++i) sum += tt.volume_at_pH(2.5 + 9.5 * i / 199.0);
+    return sum;
+  });
+  std::printf("per reading, parameters changed by 1e-3 (200 readings, Davies):\n");
+  std::printf("  chem bracketing solver (TOMS 748), warm from the last solution: %6.3f us\n", bracketed / 200.0);
+  std::printf("  fit's Newton on (log[H+], log gamma), warm from the same:       %6.3f us  [%.2f iterations]\n",
+              newton / 200.0, solves ? static_cast<double>(newton_iterations) / solves : 0.0);
+  std::printf("  chem closed form V(pH) (volume residuals instead):              %6.3f us\n\n", closed / 200.0);
+}
+
 int main() {
   constexpr int kRepeats = 41;
   std::printf("veq fit benchmark: diprotic acid 0.05 mol/L (pKa 4.2, 8.8), 25 mL, 0.1 mol/L NaOH, 200 readings,\n");
   std::printf("Davies activity, noise 0.01 pH (0.6 mV); median of %d fits, one thread\n\n", kRepeats);
+  per_point_costs();
   for (const auto signal : {veq::SignalKind::ph, veq::SignalKind::mv}) {
     const Prepared p = prepare(diprotic_run(signal, 11));
     fit::FitOptions forced;
@@ -120,6 +182,14 @@ int main() {
                 t_forced,
                 last_forced.best->iterations,
                 last_forced.best->termination.substr(0, 11).c_str());
+    const veq::fit::SolverStats& st = last_forced.best->solver;
+    std::printf("      %ld evaluations (%ld with the Jacobian), %ld readings re-solved, %.2f Newton iterations each, "
+                "%ld bracketed fallbacks\n",
+                st.evaluations,
+                st.jacobian_evaluations,
+                st.point_solves,
+                st.point_solves ? static_cast<double>(st.newton_iterations) / st.point_solves : 0.0,
+                st.bracketed_fallbacks);
     std::printf("  model selection (%zu candidates):             %8.1f us   [chose %s, runner-up %s]\n",
                 last_select.candidates.size(),
                 t_select,

@@ -12,7 +12,6 @@
 
 #include <ceres/iteration_callback.h>
 #include <ceres/loss_function.h>
-#include <ceres/manifold.h>
 
 #include "fit/layout.hpp"
 #include "fit/residual.hpp"
@@ -461,15 +460,9 @@ std::vector<double> equivalence_volumes(const Layout& L, const double* u, bool b
   return v;
 }
 
-// Adds the residual block over u (padded to padded_size(k)) to a problem, padding held constant.
-void add_curve_block(ceres::Problem& problem, detail::CurveResidual* functor, std::vector<double>& u, int k, int n) {
-  const int kp = detail::padded_size(k);
-  problem.AddResidualBlock(detail::autodiff_cost(functor, kp, n), nullptr, u.data());
-  if (kp > k) {
-    std::vector<int> pad;
-    for (int i = k; i < kp; ++i) pad.push_back(i);
-    problem.SetManifold(u.data(), new ceres::SubsetManifold(kp, pad));
-  }
+// Adds the residual block over u to a problem (the problem owns the cost function).
+void add_curve_block(ceres::Problem& problem, detail::CurveCost* cost, std::vector<double>& u) {
+  problem.AddResidualBlock(cost, nullptr, u.data());
 }
 
 // One candidate fitted at one start.
@@ -570,13 +563,15 @@ LossAt loss_at(const ceres::LossFunction& loss, double r) {
 // Commun. Stat. A6 (1977) 813): its fixed point solves sum psi(r_i) dr_i/dtheta = 0, the robust normal
 // equations, and each solve is a smooth least-squares problem that Levenberg-Marquardt finishes quickly.
 // The score is the criterion on sum rho(r_i^2).
+void solve_attempt(Attempt& a, const Prepared& p, const FitOptions& o, double delta, const AttemptLimits& lim);
+
 Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, double delta, const AttemptLimits& lim) {
   Attempt a;
   a.layout = std::move(layout);
   const Layout& L = a.layout;
   const int k = L.free_count;
   const int n = static_cast<int>(p.obs.volume_mL.size());
-  a.u.assign(static_cast<std::size_t>(detail::padded_size(k)), 0.0);
+  a.u.assign(static_cast<std::size_t>(k), 0.0);
   for (const auto& d : L.params) {
     if (d.index >= 0) a.u[static_cast<std::size_t>(d.index)] = d.initial / d.scale;
   }
@@ -589,12 +584,21 @@ Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, doubl
     a.report.termination = "FAILURE: the starting model could not be solved at every reading";
     return a;
   }
+  solve_attempt(a, p, o, delta, lim);
+  return a;
+}
+
+// Solves (or, with lim.least_squares_stage false, continues) an attempt whose u and warm states are set.
+void solve_attempt(Attempt& a, const Prepared& p, const FitOptions& o, double delta, const AttemptLimits& lim) {
+  const Layout& L = a.layout;
+  const int k = L.free_count;
+  const int n = static_cast<int>(p.obs.volume_mL.size());
   FitOptions limited = o;
   limited.max_iterations = lim.max_iterations;
   limited.function_tolerance = lim.function_tolerance;
   std::vector<double> weights(static_cast<std::size_t>(n), 1.0);
   ceres::Problem problem;
-  add_curve_block(problem, new detail::CurveResidual(&a.layout, &p.obs, a.warm.get(), &weights), a.u, k, n);
+  add_curve_block(problem, new detail::CurveCost(&a.layout, &p.obs, a.warm.get(), &weights), a.u);
   for (const auto& d : L.params) {
     if (d.index < 0) continue;
     problem.SetParameterLowerBound(a.u.data(), d.index, d.lower / d.scale);
@@ -602,10 +606,10 @@ Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, doubl
   }
   const std::unique_ptr<ceres::LossFunction> loss = make_loss(o.loss, delta);
   std::vector<double> r(static_cast<std::size_t>(n), 0.0);
-  detail::CurveResidual raw(&a.layout, &p.obs, a.warm.get());
+  const detail::CurveCost raw(&a.layout, &p.obs, a.warm.get());
   // Reweights from the residuals at a.u; returns the largest change of a weight, or -1 when they cannot be had.
   auto reweight = [&]() {
-    if (!raw(a.u.data(), r.data())) return -1.0;
+    if (!raw.residuals(a.u.data(), r.data())) return -1.0;
     double change = 0.0;
     for (std::size_t i = 0; i < r.size(); ++i) {
       const double w = loss_at(*loss, r[i]).weight;
@@ -624,8 +628,9 @@ Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, doubl
     if (reweight() < 0.0) {
       a.report.status = FitStatus::failed;
       a.report.termination = "FAILURE: the start could not be evaluated";
-      return a;
+      return;
     }
+    a.report.status = FitStatus::converged;
   }
   a.abandoned = abandon.abandoned;
   if (a.report.status != FitStatus::failed && !a.abandoned && o.loss != LossKind::none) {
@@ -657,7 +662,7 @@ Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, doubl
   if (a.abandoned) a.report.status = FitStatus::stopped;
   // sum rho at the final parameters (an abandoned candidate: at where it stopped, an upper bound).
   double rho = 0.0;
-  if (raw(a.u.data(), r.data())) {
+  if (raw.residuals(a.u.data(), r.data())) {
     for (double x : r) rho += loss_at(*loss, x).rho;
   } else {
     rho = std::numeric_limits<double>::infinity();
@@ -672,7 +677,6 @@ Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, doubl
     a.score = n > kk + 1 ? (o.criterion == Criterion::bic ? bic(rss, n, kk) : aicc(rss, n, kk))
                          : std::numeric_limits<double>::infinity();
   }
-  return a;
 }
 
 Prepared prepare_inputs(const Curve& curve,
@@ -917,8 +921,8 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
 
   // Raw residuals at the solution.
   std::vector<double> r(static_cast<std::size_t>(n), 0.0);
-  detail::CurveResidual raw(&a.layout, &p.obs, a.warm.get());
-  bool have_residuals = raw(a.u.data(), r.data());
+  const detail::CurveCost raw(&a.layout, &p.obs, a.warm.get());
+  bool have_residuals = raw.residuals(a.u.data(), r.data());
   double rss = 0.0;
   for (double x : r) rss += x * x;
   if (!have_residuals || !std::isfinite(rss)) {
@@ -964,9 +968,8 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
   std::optional<Eigen::MatrixXd> cov;
   if (have_residuals && k > 0 && dof > 0) {
     ceres::Problem problem;
-    add_curve_block(problem, new detail::CurveResidual(&a.layout, &p.obs, a.warm.get()), a.u, k, n);
-    const int kp = detail::padded_size(k);
-    if (auto full = detail::unscaled_covariance(problem, a.u.data(), kp)) cov = Eigen::MatrixXd(full->topLeftCorner(k, k));
+    add_curve_block(problem, new detail::CurveCost(&a.layout, &p.obs, a.warm.get()), a.u);
+    cov = detail::unscaled_covariance(problem, a.u.data(), k);
   }
   if (!cov) s.flags.emplace_back(kFlagCovarianceFailed);
   const double t = t_quantile_975(std::max(dof, 1));
@@ -1205,24 +1208,30 @@ FitResult fit_titration(const Curve& curve,
   }
   Attempt& win = best_per_shape[chosen];
   if (selecting) {
-    // The winner is polished from where it stopped with the full limits and tolerances.
-    Layout polished = win.layout;
-    for (auto& d : polished.params) {
-      if (d.index >= 0) d.initial = win.u[static_cast<std::size_t>(d.index)] * d.scale;
-    }
+    // The winner is polished from where it stopped, with the full limits and tolerances (its warm states
+    // are where it stopped too).
+    const std::vector<double> u_before = win.u;
+    const detail::SolveReport report_before = win.report;
+    const double rho_before = win.rho_sum;
+    const double score_before = win.score;
     AttemptLimits full;
     full.max_iterations = o.max_iterations;
     full.function_tolerance = o.function_tolerance;
     full.least_squares_stage = false;
-    Attempt again = run_attempt(std::move(polished), p, o, delta, full);
-    if (again.ok && again.rho_sum <= win.rho_sum * (1.0 + 1e-12)) {
-      again.report.iterations += win.report.iterations;
+    solve_attempt(win, p, o, delta, full);
+    // Kept unless it ended worse (the two stop at their own tolerances: a difference of 1e-9 is neither).
+    if (win.ok && win.rho_sum <= rho_before * (1.0 + 1e-9)) {
       for (auto& c : result.candidates) {
-        if (c.model == again.layout.shape.name) c.score = again.score;
+        if (c.model == win.layout.shape.name) c.score = win.score;
       }
       std::sort(result.candidates.begin(), result.candidates.end(),
                 [](const ModelScore& x, const ModelScore& y) { return x.score < y.score; });
-      win = std::move(again);
+    } else {
+      win.u = u_before;
+      win.report = report_before;
+      win.rho_sum = rho_before;
+      win.score = score_before;
+      win.ok = true;
     }
   }
   FitSummary summary = summarise(win, p, o, delta, endpoints);

@@ -3,6 +3,8 @@
 // chem's bracketed solve, and the autodiff Jacobian through the root matches central differences.
 #include <ceres/jet.h>
 
+#include <memory>
+
 #include "fit/balance.hpp"
 #include "fit/layout.hpp"
 #include "fit/residual.hpp"
@@ -80,7 +82,7 @@ TEST_CASE("fast balance: the warm Newton solve equals chem's bracketed solve", "
   }
 }
 
-TEST_CASE("the autodiff Jacobian through the charge balance matches central differences", "[fit][internals]") {
+TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by hand) matches central differences", "[fit][internals]") {
   const auto signal = GENERATE(veq::SignalKind::ph, veq::SignalKind::mv);
   // A diprotic acid with titrant carbonate (parameters c, pKa1, pKa2, electrode, carbonate), Davies.
   d::Layout L;
@@ -143,7 +145,7 @@ TEST_CASE("the autodiff Jacobian through the charge balance matches central diff
   // Weights as the robust loss sets them (here arbitrary, between 0.2 and 1).
   std::vector<double> weights;
   for (int i = 0; i < static_cast<int>(obs.volume_mL.size()); ++i) weights.push_back(0.2 + 0.8 * ((i * 7) % 10) / 9.0);
-  std::unique_ptr<ceres::CostFunction> cost(d::autodiff_cost(new d::CurveResidual(&L, &obs, &warm, &weights), k, n));
+  auto cost = std::make_unique<d::CurveCost>(&L, &obs, &warm, &weights);
   REQUIRE(cost);
   std::vector<double> r(static_cast<std::size_t>(n)), jac(static_cast<std::size_t>(n * k));
   const double* params[] = {u.data()};
