@@ -56,7 +56,7 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_option("--model", o.model,
                   "Fit this model only: strong_acid, weak_acid, diprotic_acid, triprotic_acid, strong_weak_acid, "
                   "strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, or a substance "
-                  "of the analyte table (e.g. KHP) (default: chosen by AICc)")
+                  "of the analyte table (e.g. KHP) (default: chosen by BIC)")
       ->group(fit);
   cmd->add_flag("--fit-titer", o.fit_titer,
                 "Fit the titrant factor (needs a standardisation method giving the standard's mass and molar mass)")
@@ -73,7 +73,7 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_option("--fit-loss-scale", o.fit_loss_scale, "Loss threshold in reading-noise SDs (default 3)")
       ->group(fit)
       ->check(CLI::Range(0.1, 100.0));
-  cmd->add_option("--fit-criterion", o.fit_criterion, "Model selection criterion: aicc (default) or bic")
+  cmd->add_option("--fit-criterion", o.fit_criterion, "Model selection criterion: bic (default) or aicc")
       ->group(fit)
       ->check(CLI::IsMember({"aicc", "bic"}));
   cmd->add_flag("--fit-ideal", o.fit_ideal, "Fit with activity coefficients 1 (default: Davies)")->group(fit);
@@ -146,7 +146,7 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
   if (o.fit_loss == "cauchy") ao.fit.loss = fit::LossKind::cauchy;
   if (o.fit_loss == "none") ao.fit.loss = fit::LossKind::none;
   if (o.fit_loss_scale) ao.fit.loss_scale = *o.fit_loss_scale;
-  if (o.fit_criterion == "bic") ao.fit.criterion = fit::Criterion::bic;
+  if (o.fit_criterion == "aicc") ao.fit.criterion = fit::Criterion::aicc;
   if (o.fit_ideal) ao.fit.activity = chem::ActivityModel::ideal;
   if (o.ionic_strength_mol_L) ao.fit.background_ionic_strength_mol_L = *o.ionic_strength_mol_L;
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());

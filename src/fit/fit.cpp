@@ -43,6 +43,7 @@ constexpr KindName kKindNames[] = {
     {ModelKind::carbonate_base, "carbonate_base"},
     {ModelKind::strong_weak_base, "strong_weak_base"},
     {ModelKind::hydroxide_carbonate, "hydroxide_carbonate"},
+    {ModelKind::carbonate_bicarbonate, "carbonate_bicarbonate"},
     {ModelKind::analyte, "analyte"},
 };
 // clang-format on
@@ -177,6 +178,11 @@ ModelShape shape_of(ModelKind kind) {
       s.weak_steps = 2;
       s.added_form = 2;
       break;
+    case ModelKind::carbonate_bicarbonate:
+      s.weak_steps = 2;
+      s.added_form = 2;
+      s.second_added_form = 1;
+      break;
     case ModelKind::analyte: break;
   }
   return s;
@@ -248,7 +254,31 @@ double reading_at(const Prepared& p, double v) {
 struct Start {
   double V_strong = 0.0;  // equivalence volume of the strong part [mL]
   double V_weak = 0.0;    // volume per titrated weak step [mL]
+  double V_second = 0.0;  // the second salt's volume per step it takes part in [mL]
 };
+
+// Whether the second salt of a shape (bicarbonate beside carbonate) takes part in titrated step j.
+bool second_titrates(const ModelShape& s, int j, bool base_titrant) {
+  if (s.second_added_form < 0) return false;
+  return base_titrant ? j >= s.second_added_form : j < s.second_added_form;
+}
+
+// The start's equivalence volumes after each titrated step (cumulative), the strong part first.
+std::vector<double> cumulative_volumes(const ModelShape& s, const std::vector<int>& steps, const Start& st,
+                                       bool base_titrant) {
+  std::vector<double> v;
+  double cum = st.V_strong;
+  for (int j : steps) {
+    cum += st.V_weak + (second_titrates(s, j, base_titrant) ? st.V_second : 0.0);
+    v.push_back(cum);
+  }
+  return v;
+}
+
+double cum_end(const ModelShape& s, const std::vector<int>& steps, const Start& st, bool base) {
+  const std::vector<double> c = cumulative_volumes(s, steps, st, base);
+  return c.empty() ? st.V_strong : c.back();
+}
 
 // Placeholder pKa values of a shape (the E0 guess of a mV run needs some).
 double default_pKa(const ModelShape& s, int j) {
@@ -306,6 +336,11 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
     a.added_form = s.added_form;
     for (int j = 0; j < s.weak_steps; ++j) a.pKa_25C.push_back(1.0 + j);
     sample.analytes.push_back(a);
+    if (s.second_added_form >= 0) {
+      a.name = "weak (second salt)";
+      a.added_form = s.second_added_form;
+      sample.analytes.push_back(a);
+    }
   }
   chem::Titrant titrant;
   titrant.kind = p.base_titrant ? TitrantKind::base : TitrantKind::acid;
@@ -343,6 +378,10 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
     const double c0 = std::max(c_weak, 1e-5);
     L.params.push_back(param("c", "mol/L", Role::c, kMinConc, kMaxConc, known_conc ? *known_conc : c0, std::max(c0, 1e-6)));
     if (known_conc) L.params.back().index = -2;
+    if (s.second_added_form >= 0) {
+      const double c2 = std::max(Ct * st.V_second / V0, 1e-5);
+      L.params.push_back(param("c_bicarbonate", "mol/L", Role::c_second, kMinConc, kMaxConc, c2, std::max(c2, 1e-6)));
+    }
   }
 
   // pKa guesses: the half-equivalence pH of each titrated step, the Gran buffer pKa where an endpoint
@@ -355,11 +394,14 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
     if (s.strong) (p.base_titrant ? m.strong_acid_mol_L : m.strong_base_mol_L) = c_strong;
     if (s.weak_steps > 0) {
       m.protolytes[0].conc_mol_L = c_weak;
-      for (int j = 0; j < s.weak_steps; ++j) m.protolytes[0].pKa[static_cast<std::size_t>(j)] = default_pKa(s, j);
+      if (m.protolytes.size() > 1) m.protolytes[1].conc_mol_L = Ct * st.V_second / V0;
+      for (auto& q : m.protolytes) {
+        for (int j = 0; j < s.weak_steps; ++j) q.pKa[static_cast<std::size_t>(j)] = default_pKa(s, j);
+      }
     }
     m.titrant_conc_mol_L = titer * Ct;
     const chem::Titration<double> t(m);
-    const double v_end = st.V_strong + nt * st.V_weak;
+    const double v_end = nt > 0 ? cum_end(s, steps, st, p.base_titrant) : st.V_strong;
     std::vector<double> e0s, all;
     chem::Equilibrium warm;
     for (std::size_t i = 0; i < p.obs.volume_mL.size(); ++i) {
@@ -379,10 +421,11 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
   std::vector<double> pKa(static_cast<std::size_t>(s.weak_steps), 0.0);
   for (int j = 0; j < s.weak_steps; ++j) pKa[static_cast<std::size_t>(j)] = default_pKa(s, j);
   double last = std::numeric_limits<double>::quiet_NaN();
+  const std::vector<double> cum = cumulative_volumes(s, steps, st, p.base_titrant);
   for (int i = 0; i < nt; ++i) {
     const int j = steps[static_cast<std::size_t>(i)];
-    const double v_eq = st.V_strong + (i + 1) * st.V_weak;
-    const double mid = st.V_strong + (i + 0.5) * st.V_weak;
+    const double v_eq = cum[static_cast<std::size_t>(i)];
+    const double mid = 0.5 * (v_eq + (i == 0 ? st.V_strong : cum[static_cast<std::size_t>(i - 1)]));
     double guess = std::numeric_limits<double>::quiet_NaN();
     for (std::size_t e = 0; e < p.endpoint_mL.size(); ++e) {
       if (e < p.gran_pKa.size() && p.gran_pKa[e] && std::fabs(p.endpoint_mL[e] - v_eq) <= 0.05 * v_eq) guess = *p.gran_pKa[e];
@@ -452,11 +495,18 @@ std::vector<double> equivalence_volumes(const Layout& L, const double* u, bool b
   const double cs = base_titrant ? m.strong_acid_mol_L : m.strong_base_mol_L;
   const int nt = static_cast<int>(titrated_steps(L.shape, base_titrant).size());
   const double cw = L.shape.weak_steps > 0 ? m.protolytes[0].conc_mol_L : 0.0;
+  const double c2 = m.protolytes.size() > 1 ? m.protolytes[1].conc_mol_L : 0.0;
   std::vector<double> v;
   // Stoichiometric points, as chem::equivalence_points counts them: the strong part first (for a hydroxide
-  // beside a carbonate it is not seen as an endpoint, but it is an equivalence point all the same).
+  // beside a carbonate it is not seen as an endpoint, but it is an equivalence point all the same), then
+  // each titrated step (a second salt of the acid joins the steps it takes part in).
   if (L.shape.strong) v.push_back(V0 * cs / Ct);
-  for (int k = 1; k <= nt; ++k) v.push_back(V0 * (cs + k * cw) / Ct);
+  double cum = cs;
+  for (int j : titrated_steps(L.shape, base_titrant)) {
+    cum += cw + (second_titrates(L.shape, j, base_titrant) ? c2 : 0.0);
+    v.push_back(V0 * cum / Ct);
+  }
+  (void)nt;
   return v;
 }
 
@@ -813,18 +863,19 @@ std::vector<ModelShape> candidates(const Prepared& p, const FitOptions& o) {
     else kinds = {ModelKind::triprotic_acid, ModelKind::diprotic_acid};
   } else {
     if (m == 1) kinds = {ModelKind::strong_base, ModelKind::weak_base, ModelKind::carbonate_base};
-    else if (m == 2) kinds = {ModelKind::carbonate_base, ModelKind::hydroxide_carbonate, ModelKind::strong_weak_base, ModelKind::weak_base};
-    else kinds = {ModelKind::hydroxide_carbonate, ModelKind::carbonate_base};
+    else if (m == 2) kinds = {ModelKind::carbonate_base, ModelKind::hydroxide_carbonate, ModelKind::carbonate_bicarbonate,
+                              ModelKind::strong_weak_base, ModelKind::weak_base};
+    else kinds = {ModelKind::hydroxide_carbonate, ModelKind::carbonate_base, ModelKind::carbonate_bicarbonate};
   }
   for (ModelKind k : kinds) out.push_back(detail::shape_of(k));
   return out;
 }
 
 // The equivalence volumes a start implies: the strong part's, then one per titrated weak step.
-std::vector<double> start_volumes(const ModelShape& s, int nt, const Start& st) {
+std::vector<double> start_volumes(const ModelShape& s, const std::vector<int>& steps, const Start& st, bool base) {
   std::vector<double> v;
-  if (s.strong && (nt == 0 || s.kind != ModelKind::hydroxide_carbonate)) v.push_back(st.V_strong);
-  for (int k = 1; k <= nt; ++k) v.push_back(st.V_strong + k * st.V_weak);
+  if (s.strong && (steps.empty() || s.kind != ModelKind::hydroxide_carbonate)) v.push_back(st.V_strong);
+  for (double x : cumulative_volumes(s, steps, st, base)) v.push_back(x);
   return v;
 }
 
@@ -852,6 +903,12 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
   const std::size_t m = E.size();
   if (s.strong && nt == 0) {
     for (double e : E) cand.push_back({e, 0.0});
+  } else if (s.second_added_form >= 0) {
+    // Carbonate and bicarbonate: E1 = V(CO3), E2 = 2 V(CO3) + V(HCO3).
+    for (std::size_t i = 0; i < m; ++i) {
+      for (std::size_t j = i + 1; j < m; ++j) cand.push_back({0.0, E[i], std::max(E[j] - 2.0 * E[i], 0.02 * E[j])});
+    }
+    for (double e : E) cand.push_back({0.0, 0.5 * e, 0.02 * e});
   } else if (!s.strong) {
     for (double e : E) {
       for (int k = 1; k <= nt; ++k) cand.push_back({0.0, e / k});
@@ -875,7 +932,7 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
   for (const Start& st : cand) {
     if (!(st.V_strong >= 0.0) || !(st.V_weak >= 0.0) || (st.V_strong <= 0.0 && st.V_weak <= 0.0)) continue;
     double score = 0.0;
-    const std::vector<double> veq = start_volumes(s, nt, st);
+    const std::vector<double> veq = start_volumes(s, titrated_steps(s, p.base_titrant), st, p.base_titrant);
     for (std::size_t i = 0; i < m; ++i) {
       for (double v : veq) {
         if (std::fabs(E[i] - v) <= 0.04 * v) {
@@ -892,7 +949,8 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
     if (out.size() == 2 || score < 0.999 * scored.front().first) break;
     const bool same = std::any_of(out.begin(), out.end(), [&](const Start& o) {
       return std::fabs(o.V_strong - st.V_strong) <= 0.05 * std::max(o.V_strong, 1e-9) &&
-             std::fabs(o.V_weak - st.V_weak) <= 0.05 * std::max(o.V_weak, 1e-9);
+             std::fabs(o.V_weak - st.V_weak) <= 0.05 * std::max(o.V_weak, 1e-9) &&
+             std::fabs(o.V_second - st.V_second) <= 0.05 * std::max(o.V_second, 1e-9);
     });
     if (!same) out.push_back(st);
   }
@@ -1072,6 +1130,17 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
   return s;
 }
 
+// Whether a free parameter of an attempt ended on (within 1e-6 of the range of) its bound.
+bool at_bound(const Attempt& a) {
+  for (const ParamDef& d : a.layout.params) {
+    if (d.index < 0) continue;
+    const double v = a.layout.value(d, a.u.data());
+    const double range = d.upper - d.lower;
+    if (v - d.lower <= 1e-6 * range || d.upper - v <= 1e-6 * range) return true;
+  }
+  return false;
+}
+
 // The layout of shape started from a fitted simpler candidate: shared parameters at its values, the added
 // top pKa beyond the readings (as for a step the readings do not reach).
 Layout seeded_layout(const ModelShape& shape, const Attempt& parent, const Prepared& p, const FitOptions& o) {
@@ -1134,6 +1203,9 @@ FitResult fit_titration(const Curve& curve,
     return skip("no endpoint to start from (name the model with --model to fit anyway)");
   }
   FitOptions o = options;
+  // A known amount pins the concentration only together with the titrant factor: without it, the titrant
+  // is taken at its nominal concentration and the concentration is what the fit measures.
+  if (!o.fit_titer) o.standard_amount_mmol.reset();
   if (o.fit_titer && !o.standard_amount_mmol) {
     o.fit_titer = false;
     result.warnings.push_back({"fit_titer_ignored",
@@ -1193,10 +1265,16 @@ FitResult fit_titration(const Curve& curve,
   }
   std::sort(result.candidates.begin(), result.candidates.end(),
             [](const ModelScore& x, const ModelScore& y) { return x.score < y.score; });
+  // The best score wins, except that a candidate with a free parameter on its bound (a component driven
+  // to nothing, a pKa pushed out of reach) gives way to one without: the simpler model then says the same.
   std::size_t chosen = best_per_shape.size();
-  for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
-    if (!best_per_shape[i].ok || best_per_shape[i].abandoned) continue;
-    if (chosen == best_per_shape.size() || best_per_shape[i].score < best_per_shape[chosen].score) chosen = i;
+  for (const bool allow_bound : {false, true}) {
+    for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
+      const Attempt& q = best_per_shape[i];
+      if (!q.ok || q.abandoned || (!allow_bound && at_bound(q))) continue;
+      if (chosen == best_per_shape.size() || q.score < best_per_shape[chosen].score) chosen = i;
+    }
+    if (chosen != best_per_shape.size()) break;
   }
   if (chosen == best_per_shape.size()) {
     result.status = FitStatus::failed;

@@ -21,6 +21,9 @@ struct ModelShape {
   int weak_steps = 0;         // 0: no weak system
   int top_charge = 0;         // of the weak system's fully protonated form
   int added_form = 0;         // protons the added form has lost
+  // A second salt of the same weak acid, added as this form (1: NaHCO3 beside Na2CO3); -1: none. It shares
+  // the pKa values; its concentration is the parameter c_bicarbonate.
+  int second_added_form = -1;
   std::vector<double> table_pKa;  // analyte models: the table's values (initial guesses) at the run's temperature
 };
 
@@ -28,7 +31,7 @@ struct ModelShape {
 [[nodiscard]] ModelShape shape_of(ModelKind kind);
 
 // What a parameter stands for.
-enum class Role { c_strong, c, pKa, offset, e0, slope, titer, carbonate };
+enum class Role { c_strong, c, c_second, pKa, offset, e0, slope, titer, carbonate };
 
 struct ParamDef {
   std::string name;
@@ -82,7 +85,11 @@ struct Layout {
             m.strong_base_mol_L = v;
           }
           break;
-        case Role::pKa: m.protolytes[0].pKa[static_cast<std::size_t>(p.step)] = v; break;
+        case Role::c_second: m.protolytes[1].conc_mol_L = v; break;
+        case Role::pKa:
+          // Every weak system of a model is the same acid (one, or two salts of it).
+          for (auto& q : m.protolytes) q.pKa[static_cast<std::size_t>(p.step)] = v;
+          break;
         case Role::titer: titer = v; break;
         case Role::carbonate:
           carbonate = v;

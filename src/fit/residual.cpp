@@ -12,7 +12,8 @@ namespace veq::fit::detail {
 namespace {
 
 bool is_chemical(Role r) {
-  return r == Role::c_strong || r == Role::c || r == Role::pKa || r == Role::titer || r == Role::carbonate;
+  return r == Role::c_strong || r == Role::c || r == Role::c_second || r == Role::pKa || r == Role::titer ||
+         r == Role::carbonate;
 }
 
 // d pH / d u for the chemical parameters at every reading, in Jets of width N (>= their number): the

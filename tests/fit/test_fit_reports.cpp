@@ -216,11 +216,11 @@ TEST_CASE("veq analyze: --model, --no-fit, --fit-hold and the fit in --json", "[
   const CliResult d = run_cli({"analyze", file, "--model", "nonsense"});
   CHECK(d.code == veq::cli::kExitUsage);
   CHECK(d.err.find("nonsense") != std::string::npos);
-  const CliResult e = run_cli({"analyze", file, "--fit-loss", "cauchy", "--fit-criterion", "bic", "--fit-hold",
+  const CliResult e = run_cli({"analyze", file, "--fit-loss", "cauchy", "--fit-criterion", "aicc", "--fit-hold",
                                "pKa1=4.756", "--model", "weak_acid", "--json", "-", "-q"});
   REQUIRE(e.code == veq::cli::kExitOk);
   const nlohmann::json je = nlohmann::json::parse(e.out);
-  CHECK(je["fit"]["criterion"] == "bic");
+  CHECK(je["fit"]["criterion"] == "aicc");
   for (const auto& p : je["fit"]["parameters"]) {
     if (p["name"] == "pKa1") CHECK(p["fixed"] == true);
   }
@@ -237,7 +237,7 @@ TEST_CASE("fit default options are pinned", "[options]") {
   CHECK(o.hold.empty());
   CHECK(o.loss == veq::fit::LossKind::huber);
   CHECK(o.loss_scale == 3.0);
-  CHECK(o.criterion == veq::fit::Criterion::aicc);
+  CHECK(o.criterion == veq::fit::Criterion::bic);
   CHECK(o.activity == veq::chem::ActivityModel::davies);
   CHECK(o.background_ionic_strength_mol_L == 0.0);
   CHECK(o.max_iterations == 100);
