@@ -1226,6 +1226,7 @@ FitResult fit_titration(const Curve& curve,
   candidate_limits.max_iterations = selecting ? std::min(o.max_iterations, 8) : o.max_iterations;
   candidate_limits.function_tolerance = selecting ? std::max(o.function_tolerance, 0.02 / n_points) : o.function_tolerance;
   double best_ls = std::numeric_limits<double>::infinity();
+  std::optional<InputError> hold_error;
   std::vector<Attempt> best_per_shape;
   for (const ModelShape& shape : shapes) {
     Attempt best;
@@ -1246,7 +1247,15 @@ FitResult fit_titration(const Curve& curve,
     for (const auto& st : plan) {
       AttemptLimits lim = candidate_limits;
       if (selecting) lim.abandon_above_cost = best_ls;
-      Layout layout = st ? make_layout(shape, p, o, *st) : seeded_layout(shape, *parent, p, o);
+      Layout layout;
+      try {
+        layout = st ? make_layout(shape, p, o, *st) : seeded_layout(shape, *parent, p, o);
+      } catch (const InputError& e) {
+        // A held parameter this candidate lacks: in a selection the candidate is left out; alone, an error.
+        if (!selecting) throw;
+        hold_error = e;
+        break;
+      }
       Attempt a = run_attempt(std::move(layout), p, o, delta, lim);
       if (a.ok && !a.abandoned) best_ls = std::min(best_ls, a.least_squares_cost);
       if (a.ok && (!best.ok || a.rho_sum < best.rho_sum)) best = std::move(a);
@@ -1275,6 +1284,10 @@ FitResult fit_titration(const Curve& curve,
       if (chosen == best_per_shape.size() || q.score < best_per_shape[chosen].score) chosen = i;
     }
     if (chosen != best_per_shape.size()) break;
+  }
+  if (chosen == best_per_shape.size() && hold_error &&
+      std::none_of(best_per_shape.begin(), best_per_shape.end(), [](const Attempt& q) { return !q.layout.params.empty(); })) {
+    throw *hold_error;  // no candidate has the held parameter
   }
   if (chosen == best_per_shape.size()) {
     result.status = FitStatus::failed;

@@ -196,6 +196,16 @@ TEST_CASE("held parameters stay at their value and carry no standard error", "[f
   CHECK(p->value == 4.756);
   CHECK_FALSE(p->std_error);
   CHECK(a.fit.best->free_parameters == 2);  // c and the offset
+  // In a model selection, candidates without the held parameter are left out; a name none has is an error.
+  veq::AnalyzeOptions sel;
+  sel.fit.hold = {{"pKa2", 12.5}};
+  const veq::Analysis b = veq::analyze(veq::test::run_from_simulation(acetic(0.01, 2), false), sel);
+  REQUIRE(b.fit.best);
+  REQUIRE(b.fit.best->parameter("pKa2") != nullptr);
+  CHECK(b.fit.best->parameter("pKa2")->fixed);
+  for (const auto& c : b.fit.candidates) CHECK(c.model != "weak_acid");
+  sel.fit.hold = {{"pKa9", 1.0}};
+  CHECK_THROWS_WITH(veq::analyze(veq::test::run_from_simulation(acetic(0.01, 2), false), sel), Catch::Contains("pKa9"));
 }
 
 TEST_CASE("veq analyze: --model, --no-fit, --fit-hold and the fit in --json", "[fit][cli]") {
