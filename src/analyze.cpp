@@ -89,9 +89,15 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
     if (c.disagree) e.flags.emplace_back(signal::kFlagMethodsDisagree);
     if ((g.before && !g.before->linear) || (g.after && !g.after->linear)) e.flags.emplace_back(signal::kFlagGranNonlinear);
   }
-  // Indicators judge the consensus endpoint volumes, on the fitted model's curve when the fit is usable.
-  if (a.fit.usable() && a.curve.signal == SignalKind::ph) {
-    a.indicators = indicators::assess(fit::fitted_curve(*a.fit.best, a.curve), a.endpoints, options.indicators);
+  // Indicators judge the consensus endpoint volumes, on the fitted model's curve when the fit is usable
+  // (for a run in mV without calibration the model also gives the endpoint's pH).
+  if (a.fit.usable()) {
+    const indicators::PhCurve model = fit::fitted_curve(*a.fit.best, a.curve);
+    signal::EndpointResult at_pH = a.endpoints;
+    if (a.curve.signal != SignalKind::ph) {
+      for (auto& e : at_pH.endpoints) e.value = model.pH_at_mL(e.volume_mL);
+    }
+    a.indicators = indicators::assess(model, at_pH, options.indicators);
   } else {
     a.indicators = indicators::assess(a.curve, a.endpoints, options.indicators);
   }

@@ -108,6 +108,23 @@ TEST_CASE("the JSON fit object: model, parameters with intervals, volumes, runne
   CHECK(a.indicators.curve_method == "model");
 }
 
+TEST_CASE("a run in mV without calibration gets its indicator check from the fitted model", "[fit][report]") {
+  // Acetic acid read in mV (E0 414 mV, Nernst slope): the fit gives the pH, the indicators follow.
+  veq::chem::SimulationOptions o = veq::test::simulation_of({{"acetic acid", 0.1}}, veq::TitrantKind::base, 0.2);
+  o.electrode.signal = veq::SignalKind::mv;
+  o.noise.sd = 0.5;
+  o.noise.seed = 8;
+  const veq::Analysis a = veq::analyze(veq::test::run_from_simulation(veq::chem::simulate(o), false));
+  REQUIRE(a.fit.usable());
+  CHECK(a.indicators.curve_method == "model");
+  REQUIRE(a.indicators.endpoints.size() == 1);
+  REQUIRE(a.indicators.endpoints[0].endpoint_pH);
+  // The equivalence pH of 0.05 mol/L acetate: 1/2 (pKw + pKa + log c) = 8.7 (textbook hydrolysis
+  // approximation; pKw 13.995, pKa 4.756), less a little for activity.
+  CHECK(*a.indicators.endpoints[0].endpoint_pH == veq::test::close(8.7, 0.0, 0.15));
+  CHECK_FALSE(a.indicators.endpoints[0].candidates.empty());
+}
+
 TEST_CASE("the text summary shows the fit beside the endpoint and a fit paragraph", "[fit][report]") {
   const veq::Analysis a = veq::analyze(veq::test::run_from_simulation(acetic(0.01, 3), false));
   const std::string t = veq::report::to_text(a);
