@@ -1,6 +1,8 @@
 // SPDX-License-Identifier: MIT
 // Timing of the charge-balance fit: one diprotic model, and the whole model selection, on a 200-point run.
 // Prints medians over repeated fits and what the warm-started solver did.
+#include "veq/fit/fit.hpp"
+
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
@@ -10,7 +12,6 @@
 #include "fit/balance.hpp"
 #include "veq/analyze.hpp"
 #include "veq/chem/simulate.hpp"
-#include "veq/fit/fit.hpp"
 #include "veq/signal/endpoints.hpp"
 #include "veq/signal/gran.hpp"
 #include "veq/signal/prepare.hpp"
@@ -153,7 +154,8 @@ void per_point_costs() {
   std::printf("per reading, parameters changed by 1e-3 (200 readings, Davies):\n");
   std::printf("  chem bracketing solver (TOMS 748), warm from the last solution: %6.3f us\n", bracketed / 200.0);
   std::printf("  fit's Newton on (log[H+], log gamma), warm from the same:       %6.3f us  [%.2f iterations]\n",
-              newton / 200.0, solves ? static_cast<double>(newton_iterations) / solves : 0.0);
+              newton / 200.0,
+              solves ? static_cast<double>(newton_iterations) / solves : 0.0);
   std::printf("  chem closed form V(pH) (volume residuals instead):              %6.3f us\n\n", closed / 200.0);
 }
 
@@ -176,20 +178,22 @@ int main() {
       return fit::fit_titration(p.curve, p.inputs, p.endpoints.endpoints, p.gran, select).best->cost;
     });
     const char* unit = signal == veq::SignalKind::ph ? "pH" : "mV";
-    std::printf("%s run (%zu readings, %zu endpoints):\n", unit, p.curve.volume_mL.size(), p.endpoints.endpoints.size());
+    std::printf(
+        "%s run (%zu readings, %zu endpoints):\n", unit, p.curve.volume_mL.size(), p.endpoints.endpoints.size());
     std::printf("  one model (diprotic_acid, %d free parameters): %8.1f us   [%d iterations, %s]\n",
                 last_forced.best->free_parameters,
                 t_forced,
                 last_forced.best->iterations,
                 last_forced.best->termination.substr(0, 11).c_str());
     const veq::fit::SolverStats& st = last_forced.best->solver;
-    std::printf("      %ld evaluations (%ld with the Jacobian), %ld readings re-solved, %.2f Newton iterations each, "
-                "%ld bracketed fallbacks\n",
-                st.evaluations,
-                st.jacobian_evaluations,
-                st.point_solves,
-                st.point_solves ? static_cast<double>(st.newton_iterations) / st.point_solves : 0.0,
-                st.bracketed_fallbacks);
+    std::printf(
+        "      %ld evaluations (%ld with the Jacobian), %ld readings re-solved, %.2f Newton iterations each, "
+        "%ld bracketed fallbacks\n",
+        st.evaluations,
+        st.jacobian_evaluations,
+        st.point_solves,
+        st.point_solves ? static_cast<double>(st.newton_iterations) / st.point_solves : 0.0,
+        st.bracketed_fallbacks);
     std::printf("  model selection (%zu candidates):             %8.1f us   [chose %s, runner-up %s]\n",
                 last_select.candidates.size(),
                 t_select,

@@ -23,8 +23,8 @@ struct System {
   const char* analyte;  // analyte table name (pKa values from its cited handbook source)
   const char* model;    // the fit model of that chemistry
   veq::TitrantKind titrant;
-  int steps;            // titrated steps (sets the dosing range)
-  double c_low, c_high; // concentration range drawn from [mol/L]
+  int steps;             // titrated steps (sets the dosing range)
+  double c_low, c_high;  // concentration range drawn from [mol/L]
 };
 
 // Handbook pKa values (analyte table, REFERENCES §2): acetic 4.756; phosphoric 2.15/7.20/12.34; NH4+ 9.25;
@@ -99,8 +99,10 @@ int main() {
     veq::AnalyzeOptions aicc;
     aicc.fit.criterion = veq::fit::Criterion::aicc;
     const veq::Analysis s = veq::analyze(r, aicc);
-    if (s.fit.best && s.fit.best->model == sys.model) ++selected_right;
-    else ++wrong_choices[std::string(sys.analyte) + " -> " + (s.fit.best ? s.fit.best->model : "none")];
+    if (s.fit.best && s.fit.best->model == sys.model)
+      ++selected_right;
+    else
+      ++wrong_choices[std::string(sys.analyte) + " -> " + (s.fit.best ? s.fit.best->model : "none")];
     const veq::Analysis sb = veq::analyze(r);
     if (sb.fit.best && sb.fit.best->model == sys.model) ++selected_right_bic;
     if (!a.fit.best || a.fit.best->status != veq::fit::FitStatus::converged) continue;
@@ -120,28 +122,47 @@ int main() {
       }
     };
     tally("c", conc, true);
-    for (std::size_t j = 0; j < info->pKa_25C.size(); ++j) tally("pKa" + std::to_string(j + 1), info->pKa_25C[j], false);
+    for (std::size_t j = 0; j < info->pKa_25C.size(); ++j)
+      tally("pKa" + std::to_string(j + 1), info->pKa_25C[j], false);
   }
 
-  std::printf("veq fit accuracy: %d simulated runs of %d readings, noise %.3f pH (Davies, 25 °C, V0 25 mL, 0.1 mol/L "
-              "titrant),\n", kRuns, kPoints, kNoise);
+  std::printf(
+      "veq fit accuracy: %d simulated runs of %d readings, noise %.3f pH (Davies, 25 °C, V0 25 mL, 0.1 mol/L "
+      "titrant),\n",
+      kRuns,
+      kPoints,
+      kNoise);
   std::printf("50 each of acetic acid, phosphoric acid (NaOH), ammonia, sodium carbonate (HCl); the model named.\n\n");
-  std::printf("converged %d/%d, passing every check (usable) %d/%d; median time per analyze() %.2f ms\n\n", fitted, kRuns,
-              usable, kRuns, median(fit_ms));
+  std::printf("converged %d/%d, passing every check (usable) %d/%d; median time per analyze() %.2f ms\n\n",
+              fitted,
+              kRuns,
+              usable,
+              kRuns,
+              median(fit_ms));
   std::printf("%-28s %14s %12s\n", "parameter", "median |error|", "95% coverage");
   for (const auto& [name, t] : by_param) {
     const bool rel = name.size() > 2 && name.compare(name.size() - 2, 2, " c") == 0;
-    std::printf("%-28s %13.4g%s %8d/%d\n", name.c_str(), median(t.abs_error) * (rel ? 100.0 : 1.0), rel ? "%" : " ",
-                t.covered, t.intervals);
+    std::printf("%-28s %13.4g%s %8d/%d\n",
+                name.c_str(),
+                median(t.abs_error) * (rel ? 100.0 : 1.0),
+                rel ? "%" : " ",
+                t.covered,
+                t.intervals);
   }
   std::printf("\nall pKa values:         median |dpKa| = %.4f            (target < 0.01)\n", median(pKa_all.abs_error));
   std::printf("all concentrations:     median |dc|/c = %.4f %%           (target < 0.1 %%)\n",
               100.0 * median(c_all.abs_error));
   std::printf("all parameters:         95 %% intervals cover the truth in %.1f %% (%d/%d)  (target 90-98 %%)\n",
-              all.intervals ? 100.0 * all.covered / all.intervals : 0.0, all.covered, all.intervals);
-  std::printf("model selection (no --model): the simulated chemistry chosen in %d/%d runs by BIC (the default), "
-              "%d/%d by AICc; AICc's other choices:\n",
-              selected_right_bic, kRuns, selected_right, kRuns);
+              all.intervals ? 100.0 * all.covered / all.intervals : 0.0,
+              all.covered,
+              all.intervals);
+  std::printf(
+      "model selection (no --model): the simulated chemistry chosen in %d/%d runs by BIC (the default), "
+      "%d/%d by AICc; AICc's other choices:\n",
+      selected_right_bic,
+      kRuns,
+      selected_right,
+      kRuns);
   for (const auto& [what, n] : wrong_choices) std::printf("  %3d x %s\n", n, what.c_str());
   return 0;
 }

@@ -1,5 +1,6 @@
 // SPDX-License-Identifier: MIT
-// The fitter's hot path: charge balance and ionic strength with their x and L slopes in double, and a warm Newton solve.
+// The fitter's hot path: charge balance and ionic strength with their x and L slopes in double, and a warm Newton
+// solve.
 //
 // The same equations as chem::charge_balance (DEVELOPERS.md, "Chemistry model"),
 // laid out for speed: the fitter solves every reading again for every
@@ -139,7 +140,10 @@ class FastBalance {
   // It stops once a step is below 1e-7 in x and L, after applying it:
   // convergence is quadratic there (the slope changes by a factor ln10 per
   // unit of x), so the error left is of order 1e-13.
-  bool newton(double volume_mL, chem::Equilibrium& eq, chem::detail::BalanceJacobian& jac, int max_iterations = 16) const {
+  bool newton(double volume_mL,
+              chem::Equilibrium& eq,
+              chem::detail::BalanceJacobian& jac,
+              int max_iterations = 16) const {
     double x = eq.log10_h;
     double L = m_activity ? eq.log10_gamma1 : 0.0;
     if (!std::isfinite(x) || !std::isfinite(L)) return false;

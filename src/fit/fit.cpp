@@ -2,6 +2,8 @@
 // The charge-balance fit: candidates, initial guesses, the solve, model selection, uncertainty and results.
 #include "veq/fit/fit.hpp"
 
+#include <ceres/iteration_callback.h>
+#include <ceres/loss_function.h>
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -9,9 +11,6 @@
 #include <limits>
 #include <memory>
 #include <numeric>
-
-#include <ceres/iteration_callback.h>
-#include <ceres/loss_function.h>
 
 #include "fit/layout.hpp"
 #include "fit/residual.hpp"
@@ -77,42 +76,54 @@ const std::vector<ModelKind>& model_kinds() {
 
 std::string_view to_string(LossKind kind) {
   switch (kind) {
-    case LossKind::huber: return "huber";
-    case LossKind::cauchy: return "cauchy";
-    case LossKind::none: return "none";
+    case LossKind::huber:
+      return "huber";
+    case LossKind::cauchy:
+      return "cauchy";
+    case LossKind::none:
+      return "none";
   }
   return "huber";
 }
 
-std::string_view to_string(Criterion c) { return c == Criterion::bic ? "bic" : "aicc"; }
+std::string_view to_string(Criterion c) {
+  return c == Criterion::bic ? "bic" : "aicc";
+}
 
 std::string_view to_string(FitStatus s) {
   switch (s) {
-    case FitStatus::not_run: return "not_run";
-    case FitStatus::failed: return "failed";
-    case FitStatus::converged: return "converged";
-    case FitStatus::stopped: return "stopped";
+    case FitStatus::not_run:
+      return "not_run";
+    case FitStatus::failed:
+      return "failed";
+    case FitStatus::converged:
+      return "converged";
+    case FitStatus::stopped:
+      return "stopped";
   }
   return "not_run";
 }
 
 std::vector<std::string> FitOptions::validate() const {
   std::vector<std::string> p;
-  if (!(loss_scale > 0.0 && loss_scale <= 100.0)) p.push_back(fmt::format("fit loss_scale = {}: must be in (0, 100]", loss_scale));
+  if (!(loss_scale > 0.0 && loss_scale <= 100.0))
+    p.push_back(fmt::format("fit loss_scale = {}: must be in (0, 100]", loss_scale));
   if (max_iterations < 1 || max_iterations > 10000)
     p.push_back(fmt::format("fit max_iterations = {}: must be in [1, 10000]", max_iterations));
-  for (const auto& [name, value] : std::initializer_list<std::pair<const char*, double>>{
-           {"function_tolerance", function_tolerance},
-           {"parameter_tolerance", parameter_tolerance},
-           {"gradient_tolerance", gradient_tolerance}}) {
+  for (const auto& [name, value] :
+       std::initializer_list<std::pair<const char*, double>>{{"function_tolerance", function_tolerance},
+                                                             {"parameter_tolerance", parameter_tolerance},
+                                                             {"gradient_tolerance", gradient_tolerance}}) {
     if (!(value > 0.0 && value < 1e-2)) p.push_back(fmt::format("fit {} = {}: must be in (0, 0.01)", name, value));
   }
   if (!(runs_test_alpha > 0.0 && runs_test_alpha < 0.5))
     p.push_back(fmt::format("fit runs_test_alpha = {}: must be in (0, 0.5)", runs_test_alpha));
-  if (!(max_residual_ratio >= 1.0)) p.push_back(fmt::format("fit max_residual_ratio = {}: must be >= 1", max_residual_ratio));
+  if (!(max_residual_ratio >= 1.0))
+    p.push_back(fmt::format("fit max_residual_ratio = {}: must be >= 1", max_residual_ratio));
   if (max_points < 20) p.push_back(fmt::format("fit max_points = {}: must be at least 20", max_points));
   if (!(background_ionic_strength_mol_L >= 0.0 && background_ionic_strength_mol_L <= 5.0))
-    p.push_back(fmt::format("fit background_ionic_strength_mol_L = {}: must be in [0, 5]", background_ionic_strength_mol_L));
+    p.push_back(
+        fmt::format("fit background_ionic_strength_mol_L = {}: must be in [0, 5]", background_ionic_strength_mol_L));
   if (standard_amount_mmol && !(*standard_amount_mmol > 0.0 && std::isfinite(*standard_amount_mmol)))
     p.push_back(fmt::format("fit standard_amount_mmol = {}: must be positive", *standard_amount_mmol));
   for (const auto& [name, value] : hold) {
@@ -138,7 +149,9 @@ bool FitSummary::usable() const {
   return true;
 }
 
-bool FitResult::usable() const { return best && best->usable(); }
+bool FitResult::usable() const {
+  return best && best->usable();
+}
 
 // ---- model shapes ----------------------------------------------------------------------------------------
 
@@ -150,10 +163,18 @@ ModelShape shape_of(ModelKind kind) {
   s.name = std::string(to_string(kind));
   switch (kind) {
     case ModelKind::strong_acid:
-    case ModelKind::strong_base: s.strong = true; break;
-    case ModelKind::weak_acid: s.weak_steps = 1; break;
-    case ModelKind::diprotic_acid: s.weak_steps = 2; break;
-    case ModelKind::triprotic_acid: s.weak_steps = 3; break;
+    case ModelKind::strong_base:
+      s.strong = true;
+      break;
+    case ModelKind::weak_acid:
+      s.weak_steps = 1;
+      break;
+    case ModelKind::diprotic_acid:
+      s.weak_steps = 2;
+      break;
+    case ModelKind::triprotic_acid:
+      s.weak_steps = 3;
+      break;
     case ModelKind::strong_weak_acid:
       s.strong = true;
       s.weak_steps = 1;
@@ -183,7 +204,8 @@ ModelShape shape_of(ModelKind kind) {
       s.added_form = 2;
       s.second_added_form = 1;
       break;
-    case ModelKind::analyte: break;
+    case ModelKind::analyte:
+      break;
   }
   return s;
 }
@@ -221,11 +243,11 @@ struct Prepared {
   Observations obs;
   SignalKind signal = SignalKind::ph;
   bool base_titrant = true;
-  double noise = 0.0;        // reading noise SD, floored [signal unit]
+  double noise = 0.0;  // reading noise SD, floored [signal unit]
   double v_first = 0.0, v_last = 0.0;
-  std::vector<double> endpoint_mL;                 // consensus volumes, ascending
-  std::vector<double> endpoint_snr;                // their derivative peaks' signal-to-noise ratios
-  std::vector<std::optional<double>> gran_pKa;     // per endpoint: the buffer line's pKa before it
+  std::vector<double> endpoint_mL;              // consensus volumes, ascending
+  std::vector<double> endpoint_snr;             // their derivative peaks' signal-to-noise ratios
+  std::vector<std::optional<double>> gran_pKa;  // per endpoint: the buffer line's pKa before it
   double temperature_C = 25.0;
   double nernst_mV = 59.16;
   std::optional<double> e0_guess_mV;  // mV runs: E0 from the excess-titrant readings (stoichiometry alone)
@@ -264,7 +286,9 @@ bool second_titrates(const ModelShape& s, int j, bool base_titrant) {
 }
 
 // The start's equivalence volumes after each titrated step (cumulative), the strong part first.
-std::vector<double> cumulative_volumes(const ModelShape& s, const std::vector<int>& steps, const Start& st,
+std::vector<double> cumulative_volumes(const ModelShape& s,
+                                       const std::vector<int>& steps,
+                                       const Start& st,
                                        bool base_titrant) {
   std::vector<double> v;
   double cum = st.V_strong;
@@ -283,12 +307,18 @@ double cum_end(const ModelShape& s, const std::vector<int>& steps, const Start& 
 // Placeholder pKa values of a shape (the E0 guess of a mV run needs some).
 double default_pKa(const ModelShape& s, int j) {
   if (j < static_cast<int>(s.table_pKa.size())) return s.table_pKa[static_cast<std::size_t>(j)];
-  if (s.added_form == 0) return 3.0 + 3.0 * j;                 // acids
-  if (s.weak_steps == 1) return 9.25;                          // an ammonia-like base
-  return j == 0 ? 6.35 : 10.33;                                // carbonate-like
+  if (s.added_form == 0) return 3.0 + 3.0 * j;  // acids
+  if (s.weak_steps == 1) return 9.25;           // an ammonia-like base
+  return j == 0 ? 6.35 : 10.33;                 // carbonate-like
 }
 
-ParamDef param(std::string name, std::string unit, Role role, double lower, double upper, double initial, double scale,
+ParamDef param(std::string name,
+               std::string unit,
+               Role role,
+               double lower,
+               double upper,
+               double initial,
+               double scale,
                int step = 0) {
   ParamDef d;
   d.name = std::move(name);
@@ -362,21 +392,29 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
   if (known_conc) {
     // The standard is the weak system when there is one, else the strong component.
     const double observed_mL = s.weak_steps > 0 ? st.V_weak : st.V_strong;
-    if (s.weak_steps > 0) c_weak = *known_conc;
-    else c_strong = *known_conc;
+    if (s.weak_steps > 0)
+      c_weak = *known_conc;
+    else
+      c_strong = *known_conc;
     if (o.fit_titer && observed_mL > 0.0) titer = *known_conc * V0 / (Ct * observed_mL);
     titer = std::clamp(titer, 0.6, 1.4);
   }
   if (s.strong) {
     const double c0 = std::max(c_strong, 1e-5);
     const bool held = known_conc && s.weak_steps == 0;
-    L.params.push_back(param(s.weak_steps > 0 ? "c_strong" : "c", "mol/L", Role::c_strong, kMinConc, kMaxConc,
-                             held ? *known_conc : c0, std::max(c0, 1e-6)));
+    L.params.push_back(param(s.weak_steps > 0 ? "c_strong" : "c",
+                             "mol/L",
+                             Role::c_strong,
+                             kMinConc,
+                             kMaxConc,
+                             held ? *known_conc : c0,
+                             std::max(c0, 1e-6)));
     if (held) L.params.back().index = -2;  // marked: held (resolved below)
   }
   if (s.weak_steps > 0) {
     const double c0 = std::max(c_weak, 1e-5);
-    L.params.push_back(param("c", "mol/L", Role::c, kMinConc, kMaxConc, known_conc ? *known_conc : c0, std::max(c0, 1e-6)));
+    L.params.push_back(
+        param("c", "mol/L", Role::c, kMinConc, kMaxConc, known_conc ? *known_conc : c0, std::max(c0, 1e-6)));
     if (known_conc) L.params.back().index = -2;
     if (s.second_added_form >= 0) {
       const double c2 = std::max(Ct * st.V_second / V0, 1e-5);
@@ -428,7 +466,8 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
     const double mid = 0.5 * (v_eq + (i == 0 ? st.V_strong : cum[static_cast<std::size_t>(i - 1)]));
     double guess = std::numeric_limits<double>::quiet_NaN();
     for (std::size_t e = 0; e < p.endpoint_mL.size(); ++e) {
-      if (e < p.gran_pKa.size() && p.gran_pKa[e] && std::fabs(p.endpoint_mL[e] - v_eq) <= 0.05 * v_eq) guess = *p.gran_pKa[e];
+      if (e < p.gran_pKa.size() && p.gran_pKa[e] && std::fabs(p.endpoint_mL[e] - v_eq) <= 0.05 * v_eq)
+        guess = *p.gran_pKa[e];
     }
     if (!std::isfinite(guess) && mid >= p.v_first && mid <= p.v_last) {
       guess = reading_as_pH(p, reading_at(p, mid), e0_guess);
@@ -444,8 +483,8 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
     last = guess;
   }
   for (int j = 0; j < s.weak_steps; ++j) {
-    L.params.push_back(param(fmt::format("pKa{}", j + 1), "", Role::pKa, kMin_pKa, kMax_pKa,
-                             pKa[static_cast<std::size_t>(j)], 1.0, j));
+    L.params.push_back(param(
+        fmt::format("pKa{}", j + 1), "", Role::pKa, kMin_pKa, kMax_pKa, pKa[static_cast<std::size_t>(j)], 1.0, j));
   }
 
   // Electrode.
@@ -455,8 +494,13 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
   } else {
     L.params.push_back(param("E0", "mV", Role::e0, e0_guess - 300.0, e0_guess + 300.0, e0_guess, 60.0));
     if (!o.fit_electrode) L.params.back().index = -2;
-    L.params.push_back(param("slope", "mV/pH", Role::slope, signal::kMinSlopeFraction * p.nernst_mV,
-                             signal::kMaxSlopeFraction * p.nernst_mV, p.nernst_mV, 60.0));
+    L.params.push_back(param("slope",
+                             "mV/pH",
+                             Role::slope,
+                             signal::kMinSlopeFraction * p.nernst_mV,
+                             signal::kMaxSlopeFraction * p.nernst_mV,
+                             p.nernst_mV,
+                             60.0));
     if (!o.fit_electrode) L.params.back().index = -2;
   }
   if (o.fit_titer) L.params.push_back(param("titer", "", Role::titer, 0.5, 1.5, titer, 1.0));
@@ -470,7 +514,8 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
     if (it == L.params.end()) {
       std::string names;
       for (const auto& d : L.params) names += (names.empty() ? "" : ", ") + d.name;
-      throw InputError({"options", 0, 0}, fmt::format("--fit-hold {}: model {} has no such parameter", name, s.name),
+      throw InputError({"options", 0, 0},
+                       fmt::format("--fit-hold {}: model {} has no such parameter", name, s.name),
                        "its parameters: " + names);
     }
     it->initial = value;
@@ -521,7 +566,7 @@ struct Attempt {
   std::vector<double> u;
   detail::SolveReport report;
   std::unique_ptr<WarmStates> warm;
-  double rho_sum = 0.0;  // sum rho(r^2) = 2 cost
+  double rho_sum = 0.0;             // sum rho(r^2) = 2 cost
   double least_squares_cost = 0.0;  // 1/2 sum r^2 after the first stage
   double score = std::numeric_limits<double>::infinity();
   bool ok = false;
@@ -582,16 +627,20 @@ class AbandonCallback : public ceres::IterationCallback {
 struct AttemptLimits {
   int max_iterations = 100;  // per stage
   double function_tolerance = 1e-12;
-  double abandon_above_cost = std::numeric_limits<double>::infinity();  // best least-squares cost so far [signal unit^2]
+  double abandon_above_cost =
+      std::numeric_limits<double>::infinity();  // best least-squares cost so far [signal unit^2]
   bool least_squares_stage = true;  // false: straight to the robust loss (a start that is already the solution)
 };
 
 // The loss as Ceres defines it: rho(s) of s = r^2 with rho' and rho'' (ceres::HuberLoss, ceres::CauchyLoss).
 std::unique_ptr<ceres::LossFunction> make_loss(LossKind kind, double delta) {
   switch (kind) {
-    case LossKind::huber: return std::make_unique<ceres::HuberLoss>(delta);
-    case LossKind::cauchy: return std::make_unique<ceres::CauchyLoss>(delta);
-    case LossKind::none: return std::make_unique<ceres::TrivialLoss>();
+    case LossKind::huber:
+      return std::make_unique<ceres::HuberLoss>(delta);
+    case LossKind::cauchy:
+      return std::make_unique<ceres::CauchyLoss>(delta);
+    case LossKind::none:
+      return std::make_unique<ceres::TrivialLoss>();
   }
   return std::make_unique<ceres::TrivialLoss>();
 }
@@ -771,7 +820,8 @@ Prepared prepare_inputs(const Curve& curve,
   // Keep them in volume order.
   std::vector<std::size_t> order(p.endpoint_mL.size());
   std::iota(order.begin(), order.end(), 0);
-  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return p.endpoint_mL[a] < p.endpoint_mL[b]; });
+  std::sort(
+      order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return p.endpoint_mL[a] < p.endpoint_mL[b]; });
   std::vector<double> ev, es;
   std::vector<std::optional<double>> gp;
   for (std::size_t i : order) {
@@ -813,8 +863,10 @@ std::vector<ModelShape> candidates(const Prepared& p, const FitOptions& o) {
       if (*k == ModelKind::analyte) throw InputError({"options", 0, 0}, "--model analyte: name the substance instead");
       if (is_acid_kind(*k) != p.base_titrant) {
         throw InputError({"options", 0, 0},
-                         fmt::format("--model {}: an {} is titrated with {}, and this run's titrant is {}", o.model,
-                                     is_acid_kind(*k) ? "acid" : "base", is_acid_kind(*k) ? "a base" : "an acid",
+                         fmt::format("--model {}: an {} is titrated with {}, and this run's titrant is {}",
+                                     o.model,
+                                     is_acid_kind(*k) ? "acid" : "base",
+                                     is_acid_kind(*k) ? "a base" : "an acid",
                                      p.base_titrant ? "a base" : "an acid"),
                          "check --titrant, or choose a model of the other kind");
       }
@@ -825,15 +877,19 @@ std::vector<ModelShape> candidates(const Prepared& p, const FitOptions& o) {
     if (info == nullptr) {
       std::string kinds;
       for (ModelKind k : model_kinds()) kinds += (kinds.empty() ? "" : ", ") + std::string(to_string(k));
-      throw InputError({"options", 0, 0}, fmt::format("--model '{}': neither a model kind nor a substance of the analyte table", o.model),
-                       "model kinds: " + kinds + "; or a substance such as KHP, acetic acid (veq simulate --help lists them)");
+      throw InputError(
+          {"options", 0, 0},
+          fmt::format("--model '{}': neither a model kind nor a substance of the analyte table", o.model),
+          "model kinds: " + kinds + "; or a substance such as KHP, acetic acid (veq simulate --help lists them)");
     }
     ModelShape s;
     s.kind = ModelKind::analyte;
     s.name = info->name;
     switch (info->kind) {
       case chem::AnalyteKind::strong_acid:
-      case chem::AnalyteKind::strong_base: s.strong = true; break;
+      case chem::AnalyteKind::strong_base:
+        s.strong = true;
+        break;
       case chem::AnalyteKind::weak:
         s.weak_steps = static_cast<int>(info->pKa_25C.size());
         s.top_charge = info->top_charge;
@@ -844,13 +900,14 @@ std::vector<ModelShape> candidates(const Prepared& p, const FitOptions& o) {
         }
         break;
     }
-    const bool strong_fits = info->kind == chem::AnalyteKind::weak ||
-                             (info->kind == chem::AnalyteKind::strong_acid) == p.base_titrant;
+    const bool strong_fits =
+        info->kind == chem::AnalyteKind::weak || (info->kind == chem::AnalyteKind::strong_acid) == p.base_titrant;
     if (!strong_fits || (s.weak_steps > 0 && titrated_steps(s, p.base_titrant).empty())) {
-      throw InputError({"options", 0, 0},
-                       fmt::format("--model '{}': a {} titrant has nothing to titrate in it", info->name,
-                                   p.base_titrant ? "base" : "acid"),
-                       "check --titrant");
+      throw InputError(
+          {"options", 0, 0},
+          fmt::format(
+              "--model '{}': a {} titrant has nothing to titrate in it", info->name, p.base_titrant ? "base" : "acid"),
+          "check --titrant");
     }
     out.push_back(s);
     return out;
@@ -858,14 +915,23 @@ std::vector<ModelShape> candidates(const Prepared& p, const FitOptions& o) {
   const std::size_t m = p.endpoint_mL.size();
   std::vector<ModelKind> kinds;
   if (p.base_titrant) {
-    if (m == 1) kinds = {ModelKind::strong_acid, ModelKind::weak_acid, ModelKind::diprotic_acid, ModelKind::triprotic_acid};
-    else if (m == 2) kinds = {ModelKind::diprotic_acid, ModelKind::strong_weak_acid, ModelKind::triprotic_acid, ModelKind::weak_acid};
-    else kinds = {ModelKind::triprotic_acid, ModelKind::diprotic_acid};
+    if (m == 1)
+      kinds = {ModelKind::strong_acid, ModelKind::weak_acid, ModelKind::diprotic_acid, ModelKind::triprotic_acid};
+    else if (m == 2)
+      kinds = {ModelKind::diprotic_acid, ModelKind::strong_weak_acid, ModelKind::triprotic_acid, ModelKind::weak_acid};
+    else
+      kinds = {ModelKind::triprotic_acid, ModelKind::diprotic_acid};
   } else {
-    if (m == 1) kinds = {ModelKind::strong_base, ModelKind::weak_base, ModelKind::carbonate_base};
-    else if (m == 2) kinds = {ModelKind::carbonate_base, ModelKind::hydroxide_carbonate, ModelKind::carbonate_bicarbonate,
-                              ModelKind::strong_weak_base, ModelKind::weak_base};
-    else kinds = {ModelKind::hydroxide_carbonate, ModelKind::carbonate_base, ModelKind::carbonate_bicarbonate};
+    if (m == 1)
+      kinds = {ModelKind::strong_base, ModelKind::weak_base, ModelKind::carbonate_base};
+    else if (m == 2)
+      kinds = {ModelKind::carbonate_base,
+               ModelKind::hydroxide_carbonate,
+               ModelKind::carbonate_bicarbonate,
+               ModelKind::strong_weak_base,
+               ModelKind::weak_base};
+    else
+      kinds = {ModelKind::hydroxide_carbonate, ModelKind::carbonate_base, ModelKind::carbonate_bicarbonate};
   }
   for (ModelKind k : kinds) out.push_back(detail::shape_of(k));
   return out;
@@ -958,8 +1024,8 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
 }
 
 // The full summary of the chosen attempt: residuals, covariance, intervals, equivalence volumes, flags.
-FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double delta,
-                     const std::vector<signal::Endpoint>& endpoints) {
+FitSummary summarise(
+    Attempt& a, const Prepared& p, const FitOptions& o, double delta, const std::vector<signal::Endpoint>& endpoints) {
   FitSummary s;
   const Layout& L = a.layout;
   const int k = L.free_count;
@@ -969,8 +1035,8 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
   s.status = a.report.status;
   s.termination = a.report.termination;
   s.iterations = a.report.iterations;
-  s.solver = {a.warm->evaluations, a.warm->jacobian_evaluations, a.warm->solves, a.warm->newton_evaluations,
-              a.warm->fallbacks};
+  s.solver = {
+      a.warm->evaluations, a.warm->jacobian_evaluations, a.warm->solves, a.warm->newton_evaluations, a.warm->fallbacks};
   s.points = n;
   s.free_parameters = k;
   s.cost = a.report.cost;
@@ -1052,7 +1118,8 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
     if (!q.fixed) {
       const double range = d.upper - d.lower;
       if (q.value - d.lower <= 1e-6 * range || d.upper - q.value <= 1e-6 * range) {
-        if (std::find(s.flags.begin(), s.flags.end(), kFlagAtBound) == s.flags.end()) s.flags.emplace_back(kFlagAtBound);
+        if (std::find(s.flags.begin(), s.flags.end(), kFlagAtBound) == s.flags.end())
+          s.flags.emplace_back(kFlagAtBound);
       }
     }
     s.parameters.push_back(q);
@@ -1091,11 +1158,13 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
     if (cov) {
       double var = 0.0;
       for (int i = 0; i < k; ++i) {
-        for (int j = 0; j < k; ++j) var += grad[e][static_cast<std::size_t>(i)] * (*cov)(i, j) * scale2 * grad[e][static_cast<std::size_t>(j)];
+        for (int j = 0; j < k; ++j)
+          var += grad[e][static_cast<std::size_t>(i)] * (*cov)(i, j) * scale2 * grad[e][static_cast<std::size_t>(j)];
       }
       if (var >= 0.0 && std::isfinite(var)) fe.uncertainty_mL = std::sqrt(var);
     }
-    fe.in_range = std::isfinite(fe.volume_mL) && fe.volume_mL >= p.v_first - margin && fe.volume_mL <= p.v_last + margin;
+    fe.in_range =
+        std::isfinite(fe.volume_mL) && fe.volume_mL >= p.v_first - margin && fe.volume_mL <= p.v_last + margin;
     if (!std::isfinite(fe.volume_mL)) continue;
     s.equivalence.push_back(fe);
   }
@@ -1124,7 +1193,8 @@ FitSummary summarise(Attempt& a, const Prepared& p, const FitOptions& o, double 
   if (s.status == FitStatus::stopped) s.flags.emplace_back(kFlagNotConverged);
   s.residual_tests = residual_tests(r);
   if (s.scale_sd < 0.1 * p.noise) s.residual_tests.runs_tested = false;  // below the reading noise: nothing to test
-  if (s.residual_tests.runs_tested && s.residual_tests.runs_p < o.runs_test_alpha) s.flags.emplace_back(kFlagResidualPattern);
+  if (s.residual_tests.runs_tested && s.residual_tests.runs_p < o.runs_test_alpha)
+    s.flags.emplace_back(kFlagResidualPattern);
   if (s.scale_sd > o.max_residual_ratio * p.noise) s.flags.emplace_back(kFlagPoorFit);
   s.chemistry = L.model(a.u.data());
   return s;
@@ -1174,7 +1244,8 @@ FitResult fit_titration(const Curve& curve,
                         const std::vector<signal::Endpoint>& endpoints,
                         const std::vector<signal::GranEndpoint>& gran,
                         const FitOptions& options) {
-  if (const auto problems = options.validate(); !problems.empty()) throw InputError({"options", 0, 0}, problems.front());
+  if (const auto problems = options.validate(); !problems.empty())
+    throw InputError({"options", 0, 0}, problems.front());
   FitResult result;
   result.criterion = options.criterion;
   auto skip = [&](const std::string& why) {
@@ -1189,14 +1260,18 @@ FitResult fit_titration(const Curve& curve,
     result.flags = {kFlagSkipped};
     return result;
   }
-  if (!(inputs.sample_volume_mL > 0.0) || !(inputs.titrant_conc_mol_L > 0.0) || !std::isfinite(inputs.sample_volume_mL) ||
-      !std::isfinite(inputs.titrant_conc_mol_L)) {
-    return skip("it needs the sample volume and the titrant concentration (--sample-volume, --titrant-conc or the file's metadata)");
+  if (!(inputs.sample_volume_mL > 0.0) || !(inputs.titrant_conc_mol_L > 0.0) ||
+      !std::isfinite(inputs.sample_volume_mL) || !std::isfinite(inputs.titrant_conc_mol_L)) {
+    return skip(
+        "it needs the sample volume and the titrant concentration (--sample-volume, --titrant-conc or the file's "
+        "metadata)");
   }
   const Prepared p = prepare_inputs(curve, inputs, endpoints, gran, options);
-  if (p.obs.volume_mL.size() < 12) return skip(fmt::format("{} readings are too few (at least 12)", p.obs.volume_mL.size()));
+  if (p.obs.volume_mL.size() < 12)
+    return skip(fmt::format("{} readings are too few (at least 12)", p.obs.volume_mL.size()));
   if (options.fit_carbonate && !p.base_titrant) {
-    result.warnings.push_back({"fit_carbonate_ignored", "--fit-carbonate: only a base titrant absorbs CO2; not fitted", {}});
+    result.warnings.push_back(
+        {"fit_carbonate_ignored", "--fit-carbonate: only a base titrant absorbs CO2; not fitted", {}});
   }
   const std::vector<ModelShape> shapes = candidates(p, options);  // throws for a bad --model
   if (options.model.empty() && p.endpoint_mL.empty()) {
@@ -1224,7 +1299,8 @@ FitResult fit_titration(const Curve& curve,
   AttemptLimits candidate_limits;
   const double n_points = static_cast<double>(p.obs.volume_mL.size());
   candidate_limits.max_iterations = selecting ? std::min(o.max_iterations, 8) : o.max_iterations;
-  candidate_limits.function_tolerance = selecting ? std::max(o.function_tolerance, 0.02 / n_points) : o.function_tolerance;
+  candidate_limits.function_tolerance =
+      selecting ? std::max(o.function_tolerance, 0.02 / n_points) : o.function_tolerance;
   double best_ls = std::numeric_limits<double>::infinity();
   std::optional<InputError> hold_error;
   std::vector<Attempt> best_per_shape;
@@ -1242,8 +1318,10 @@ FitResult fit_titration(const Curve& curve,
         parent = &q;
     }
     std::vector<std::optional<Start>> plan;
-    if (parent != nullptr) plan.push_back(std::nullopt);
-    else for (const Start& st : starts(shape, p)) plan.push_back(st);
+    if (parent != nullptr)
+      plan.push_back(std::nullopt);
+    else
+      for (const Start& st : starts(shape, p)) plan.push_back(st);
     for (const auto& st : plan) {
       AttemptLimits lim = candidate_limits;
       if (selecting) lim.abandon_above_cost = best_ls;
@@ -1258,8 +1336,10 @@ FitResult fit_titration(const Curve& curve,
       }
       Attempt a = run_attempt(std::move(layout), p, o, delta, lim);
       if (a.ok && !a.abandoned) best_ls = std::min(best_ls, a.least_squares_cost);
-      if (a.ok && (!best.ok || a.rho_sum < best.rho_sum)) best = std::move(a);
-      else if (!best.ok && best.layout.params.empty()) best = std::move(a);
+      if (a.ok && (!best.ok || a.rho_sum < best.rho_sum))
+        best = std::move(a);
+      else if (!best.ok && best.layout.params.empty())
+        best = std::move(a);
     }
     best_per_shape.push_back(std::move(best));
   }
@@ -1269,11 +1349,15 @@ FitResult fit_titration(const Curve& curve,
     ms.score = std::isfinite(a.score) ? a.score : 0.0;
     ms.converged = a.ok && a.report.status == FitStatus::converged;
     ms.free_parameters = a.layout.free_count;
-    ms.residual_sd = a.ok ? std::sqrt(std::max(a.rho_sum, 0.0) / std::max<double>(1.0, static_cast<double>(p.obs.volume_mL.size()) - a.layout.free_count)) : 0.0;
+    ms.residual_sd =
+        a.ok ? std::sqrt(std::max(a.rho_sum, 0.0) /
+                         std::max<double>(1.0, static_cast<double>(p.obs.volume_mL.size()) - a.layout.free_count))
+             : 0.0;
     if (a.ok) result.candidates.push_back(ms);
   }
-  std::sort(result.candidates.begin(), result.candidates.end(),
-            [](const ModelScore& x, const ModelScore& y) { return x.score < y.score; });
+  std::sort(result.candidates.begin(), result.candidates.end(), [](const ModelScore& x, const ModelScore& y) {
+    return x.score < y.score;
+  });
   // The best score wins, except that a candidate with a free parameter on its bound (a component driven
   // to nothing, a pKa pushed out of reach) gives way to one without: the simpler model then says the same.
   std::size_t chosen = best_per_shape.size();
@@ -1286,13 +1370,15 @@ FitResult fit_titration(const Curve& curve,
     if (chosen != best_per_shape.size()) break;
   }
   if (chosen == best_per_shape.size() && hold_error &&
-      std::none_of(best_per_shape.begin(), best_per_shape.end(), [](const Attempt& q) { return !q.layout.params.empty(); })) {
+      std::none_of(
+          best_per_shape.begin(), best_per_shape.end(), [](const Attempt& q) { return !q.layout.params.empty(); })) {
     throw *hold_error;  // no candidate has the held parameter
   }
   if (chosen == best_per_shape.size()) {
     result.status = FitStatus::failed;
     result.flags = {kFlagFailed};
-    const std::string why = best_per_shape.empty() ? std::string("no candidate model") : best_per_shape.front().report.termination;
+    const std::string why =
+        best_per_shape.empty() ? std::string("no candidate model") : best_per_shape.front().report.termination;
     result.message = "no candidate model could be fitted (" + why + ")";
     result.warnings.push_back({"fit_failed", "charge-balance fit failed: " + result.message, {}});
     return result;
@@ -1315,8 +1401,9 @@ FitResult fit_titration(const Curve& curve,
       for (auto& c : result.candidates) {
         if (c.model == win.layout.shape.name) c.score = win.score;
       }
-      std::sort(result.candidates.begin(), result.candidates.end(),
-                [](const ModelScore& x, const ModelScore& y) { return x.score < y.score; });
+      std::sort(result.candidates.begin(), result.candidates.end(), [](const ModelScore& x, const ModelScore& y) {
+        return x.score < y.score;
+      });
     } else {
       win.u = u_before;
       win.report = report_before;
@@ -1337,7 +1424,8 @@ FitResult fit_titration(const Curve& curve,
     std::string fl;
     for (const auto& f : b.flags) fl += (fl.empty() ? "" : ", ") + f;
     result.warnings.push_back({"fit_not_usable",
-                               fmt::format("charge-balance fit ({}) is not used beside the endpoints: {}", b.model,
+                               fmt::format("charge-balance fit ({}) is not used beside the endpoints: {}",
+                                           b.model,
                                            fl.empty() ? std::string(to_string(b.status)) : fl),
                                {}});
   }

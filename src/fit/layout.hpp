@@ -17,10 +17,10 @@ namespace veq::fit::detail {
 struct ModelShape {
   std::string name;  // reported model name
   ModelKind kind = ModelKind::weak_acid;
-  bool strong = false;        // has a strong acid (or base) component
-  int weak_steps = 0;         // 0: no weak system
-  int top_charge = 0;         // of the weak system's fully protonated form
-  int added_form = 0;         // protons the added form has lost
+  bool strong = false;  // has a strong acid (or base) component
+  int weak_steps = 0;   // 0: no weak system
+  int top_charge = 0;   // of the weak system's fully protonated form
+  int added_form = 0;   // protons the added form has lost
   // A second salt of the same weak acid, added as this form (1: NaHCO3 beside Na2CO3); -1: none. It shares
   // the pKa values; its concentration is the parameter c_bicarbonate.
   int second_added_form = -1;
@@ -37,12 +37,12 @@ struct ParamDef {
   std::string name;
   std::string unit;
   Role role = Role::c;
-  int step = 0;             // pKa: 0-based step
-  double lower = 0.0;       // bounds [unit]
+  int step = 0;        // pKa: 0-based step
+  double lower = 0.0;  // bounds [unit]
   double upper = 0.0;
-  double initial = 0.0;     // start (free) or held value (fixed) [unit]
-  double scale = 1.0;       // the solver works on value / scale [unit]
-  int index = -1;           // position in the free vector; -1 when held
+  double initial = 0.0;  // start (free) or held value (fixed) [unit]
+  double scale = 1.0;    // the solver works on value / scale [unit]
+  int index = -1;        // position in the free vector; -1 when held
 };
 
 // A candidate ready to fit: the base chemistry (V0, Ct, pKw, A, carbonate
@@ -73,8 +73,10 @@ struct Layout {
       const T v = value(p, u);
       switch (p.role) {
         case Role::c_strong:
-          if (base.titrant_sign > 0) m.strong_acid_mol_L = v;
-          else m.strong_base_mol_L = v;
+          if (base.titrant_sign > 0)
+            m.strong_acid_mol_L = v;
+          else
+            m.strong_base_mol_L = v;
           break;
         case Role::c:
           if (shape.weak_steps > 0) {
@@ -85,19 +87,24 @@ struct Layout {
             m.strong_base_mol_L = v;
           }
           break;
-        case Role::c_second: m.protolytes[1].conc_mol_L = v; break;
+        case Role::c_second:
+          m.protolytes[1].conc_mol_L = v;
+          break;
         case Role::pKa:
           // Every weak system of a model is the same acid (one, or two salts of it).
           for (auto& q : m.protolytes) q.pKa[static_cast<std::size_t>(p.step)] = v;
           break;
-        case Role::titer: titer = v; break;
+        case Role::titer:
+          titer = v;
+          break;
         case Role::carbonate:
           carbonate = v;
           has_carbonate = true;
           break;
         case Role::offset:
         case Role::e0:
-        case Role::slope: break;
+        case Role::slope:
+          break;
       }
     }
     m.titrant_conc_mol_L = titer * nominal_titrant_mol_L;

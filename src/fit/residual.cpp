@@ -30,7 +30,8 @@ void chemical_gradients(const Layout& layout,
   using J = ceres::Jet<double, N>;
   std::array<J, kMaxFree> uj{};
   for (int f = 0; f < layout.free_count; ++f) uj[static_cast<std::size_t>(f)] = J(u[f]);
-  for (std::size_t c = 0; c < chemical.size(); ++c) uj[static_cast<std::size_t>(chemical[c])].v[static_cast<int>(c)] = 1.0;
+  for (std::size_t c = 0; c < chemical.size(); ++c)
+    uj[static_cast<std::size_t>(chemical[c])].v[static_cast<int>(c)] = 1.0;
   const chem::Model<J> mt = layout.model(uj.data());
   const std::size_t nc = chemical.size();
   for (std::size_t i = 0; i < obs.volume_mL.size(); ++i) {
@@ -56,7 +57,10 @@ void chemical_gradients(const Layout& layout,
 
 }  // namespace
 
-CurveCost::CurveCost(const Layout* layout, const Observations* obs, WarmStates* warm, const std::vector<double>* weights)
+CurveCost::CurveCost(const Layout* layout,
+                     const Observations* obs,
+                     WarmStates* warm,
+                     const std::vector<double>* weights)
     : m_layout(layout), m_obs(obs), m_warm(warm), m_weights(weights) {
   set_num_residuals(static_cast<int>(obs->volume_mL.size()));
   mutable_parameter_block_sizes()->push_back(layout->free_count);
@@ -148,14 +152,29 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
   if (nc > 0) {
     const bool activity = fb.activity();
     switch (padded_size(static_cast<int>(nc))) {
-      case 1: chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      case 2: chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      case 3: chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      case 4: chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      case 6: chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      case 8: chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      case 10: chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, activity, grad); break;
-      default: return false;
+      case 1:
+        chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 2:
+        chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 3:
+        chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 4:
+        chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 6:
+        chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 8:
+        chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 10:
+        chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      default:
+        return false;
     }
   }
   const double dpred_dpH = ph_signal ? 1.0 : -slope_v;

@@ -2,10 +2,10 @@
 // The residual cost function: every reading's measured minus predicted value through the charge balance.
 #pragma once
 
+#include <ceres/cost_function.h>
+
 #include <array>
 #include <vector>
-
-#include <ceres/cost_function.h>
 
 #include "fit/balance.hpp"
 #include "fit/layout.hpp"
@@ -40,7 +40,9 @@ struct WarmStates {
 // Jet widths 5, 7 and 9 cost more than 6, 8 and 10 (Eigen vectorises the
 // even ones; measured for chem::charge_balance: 294 ns at 5, 220 ns at 6,
 // 307 ns at 7, 254 ns at 8): derivative directions are padded to even widths.
-[[nodiscard]] inline int padded_size(int k) { return (k >= 5 && k % 2 == 1) ? k + 1 : k; }
+[[nodiscard]] inline int padded_size(int k) {
+  return (k >= 5 && k % 2 == 1) ? k + 1 : k;
+}
 
 // Measured minus predicted reading at every observation, times the square
 // root of its weight (the robust loss enters through weights: iteratively

@@ -5,13 +5,13 @@
 // functions on certified problems, so that what it grades is what fits titrations.
 #pragma once
 
-#include <optional>
-#include <string>
-
-#include <Eigen/Core>
 #include <ceres/iteration_callback.h>
 #include <ceres/problem.h>
 #include <ceres/solver.h>
+
+#include <Eigen/Core>
+#include <optional>
+#include <string>
 
 #include "veq/fit/fit.hpp"
 
@@ -24,7 +24,7 @@ struct SolveReport {
   FitStatus status = FitStatus::failed;
   std::string termination;  // "CONVERGENCE: ..." (Ceres' type and message)
   int iterations = 0;
-  double cost = 0.0;        // 1/2 sum of squared (robust) residuals
+  double cost = 0.0;  // 1/2 sum of squared (robust) residuals
 };
 
 // Solves the problem in place; callback (may be null) is called after every

@@ -33,7 +33,8 @@ ordered_json optional_significant(const std::optional<double>& x, int digits) {
 
 // Decimals that show a value to two significant digits of its standard error.
 int decimals_for(const std::optional<double>& se, double value) {
-  if (se && *se > 0.0 && std::isfinite(*se)) return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
+  if (se && *se > 0.0 && std::isfinite(*se))
+    return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
   if (value != 0.0 && std::isfinite(value))
     return std::clamp(4 - static_cast<int>(std::floor(std::log10(std::fabs(value)))), 0, 10);
   return 4;
@@ -78,8 +79,10 @@ ordered_json fit_json(const Analysis& a) {
     q["name"] = p.name;
     q["value"] = significant(p.value, 10);
     q["std_error"] = optional_significant(p.std_error, 3);
-    if (p.ci95_low && p.ci95_high) q["ci95"] = {significant(*p.ci95_low, 10), significant(*p.ci95_high, 10)};
-    else q["ci95"] = nullptr;
+    if (p.ci95_low && p.ci95_high)
+      q["ci95"] = {significant(*p.ci95_low, 10), significant(*p.ci95_high, 10)};
+    else
+      q["ci95"] = nullptr;
     q["unit"] = p.unit;
     q["fixed"] = p.fixed;
     params.push_back(q);
@@ -158,7 +161,8 @@ std::string endpoint_fit_line(const Analysis& a, int endpoint_index) {
   const fit::FittedEquivalence* fe = matched(a, endpoint_index);
   if (fe == nullptr) return {};
   const int d = std::clamp(decimals_for(fe->uncertainty_mL, fe->volume_mL), 2, 6);
-  return fmt::format("      Fit: {:.{}f} ± {:.{}f} mL ({})\n", fe->volume_mL, d, *fe->uncertainty_mL, d, a.fit.best->model);
+  return fmt::format(
+      "      Fit: {:.{}f} ± {:.{}f} mL ({})\n", fe->volume_mL, d, *fe->uncertainty_mL, d, a.fit.best->model);
 }
 
 std::string fit_block(const Analysis& a) {
@@ -169,12 +173,16 @@ std::string fit_block(const Analysis& a) {
   }
   const fit::FitSummary& b = *r.best;
   const char* unit = b.signal == SignalKind::ph ? "pH" : "mV";
-  std::string out = fmt::format("  Fit (charge balance): {}, {} readings, residual SD {:.2g} {}, {} iterations{}", b.model,
-                                b.points, b.residual_sd, unit, b.iterations,
+  std::string out = fmt::format("  Fit (charge balance): {}, {} readings, residual SD {:.2g} {}, {} iterations{}",
+                                b.model,
+                                b.points,
+                                b.residual_sd,
+                                unit,
+                                b.iterations,
                                 b.status == fit::FitStatus::converged ? "" : " (not converged)");
   if (r.runner_up) {
-    out += fmt::format("; runner-up {} ({} {:+.1f})", r.runner_up->model, fit::to_string(r.criterion),
-                       r.runner_up->score - b.score);
+    out += fmt::format(
+        "; runner-up {} ({} {:+.1f})", r.runner_up->model, fit::to_string(r.criterion), r.runner_up->score - b.score);
   }
   out += "\n     ";
   bool first = true;
@@ -186,8 +194,17 @@ std::string fit_block(const Analysis& a) {
     if (p.fixed) {
       out += fmt::format("{} = {:.{}f}{} (held)", p.name, p.value, d, u);
     } else if (p.std_error && p.ci95_low && p.ci95_high) {
-      out += fmt::format("{} = {:.{}f} ± {:.{}f}{} [95 % {:.{}f} to {:.{}f}]", p.name, p.value, d, *p.std_error, d, u,
-                         *p.ci95_low, d, *p.ci95_high, d);
+      out += fmt::format("{} = {:.{}f} ± {:.{}f}{} [95 % {:.{}f} to {:.{}f}]",
+                         p.name,
+                         p.value,
+                         d,
+                         *p.std_error,
+                         d,
+                         u,
+                         *p.ci95_low,
+                         d,
+                         *p.ci95_high,
+                         d);
     } else {
       out += fmt::format("{} = {:.{}f}{}", p.name, p.value, d, u);
     }

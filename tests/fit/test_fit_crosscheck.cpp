@@ -3,7 +3,6 @@
 // (MINPACK's lmdif algorithm) minimising the same sum of squares of pH residuals, with the charge balance
 // of tests/support/charge_balance.hpp (written apart from veq's chemistry) and central differences.
 #include <catch2/catch.hpp>
-
 #include <random>
 #include <unsupported/Eigen/NonLinearOptimization>
 #include <unsupported/Eigen/NumericalDiff>
@@ -34,7 +33,8 @@ struct IdealResiduals {
     veq::test::Sample s = base;
     s.weak = {{x[0], {}}};
     for (int j = 0; j < steps; ++j) s.weak[0].pKa.push_back(x[1 + j]);
-    for (std::size_t i = 0; i < volume_mL.size(); ++i) f[static_cast<Eigen::Index>(i)] = pH[i] - veq::test::pH_at_volume(s, volume_mL[i]);
+    for (std::size_t i = 0; i < volume_mL.size(); ++i)
+      f[static_cast<Eigen::Index>(i)] = pH[i] - veq::test::pH_at_volume(s, volume_mL[i]);
     return 0;
   }
 };
@@ -54,7 +54,8 @@ Problem make(const std::vector<double>& pKa, double conc, std::uint64_t seed) {
   p.truth.pKw = veq::chem::pKw(25.0);
   p.truth.weak = {{conc, pKa}};
   const double v_last = p.truth.V0_mL * conc * static_cast<double>(pKa.size()) / p.truth.titrant;
-  for (std::size_t k = 1; k <= pKa.size(); ++k) p.equivalence_mL.push_back(v_last * static_cast<double>(k) / pKa.size());
+  for (std::size_t k = 1; k <= pKa.size(); ++k)
+    p.equivalence_mL.push_back(v_last * static_cast<double>(k) / pKa.size());
   std::mt19937_64 rng(seed);
   std::normal_distribution<double> noise(0.0, 0.01);
   for (int i = 0; i < 150; ++i) {

@@ -23,7 +23,8 @@ chem::Model<double> mixture(chem::ActivityModel activity) {
   chem::Sample s;
   s.volume_mL = 25.0;
   s.background_ionic_strength_mol_L = 0.02;
-  s.analytes = {chem::analyte("phosphoric acid", 0.02), chem::analyte("ammonium chloride", 0.01),
+  s.analytes = {chem::analyte("phosphoric acid", 0.02),
+                chem::analyte("ammonium chloride", 0.01),
                 chem::analyte("hydrochloric acid", 0.005)};
   chem::Titrant t;
   t.conc_mol_L = 0.1;
@@ -82,7 +83,8 @@ TEST_CASE("fast balance: the warm Newton solve equals chem's bracketed solve", "
   }
 }
 
-TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by hand) matches central differences", "[fit][internals]") {
+TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by hand) matches central differences",
+          "[fit][internals]") {
   const auto signal = GENERATE(veq::SignalKind::ph, veq::SignalKind::mv);
   // A diprotic acid with titrant carbonate (parameters c, pKa1, pKa2, electrode, carbonate), Davies.
   d::Layout L;
@@ -109,8 +111,10 @@ TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by h
     p.step = step;
     return p;
   };
-  L.params = {par("c", d::Role::c, 0.05, 0.05, 0), par("pKa1", d::Role::pKa, 4.0, 1.0, 1, 0),
-              par("pKa2", d::Role::pKa, 9.0, 1.0, 2, 1), par("carbonate_fraction", d::Role::carbonate, 0.01, 0.01, 3)};
+  L.params = {par("c", d::Role::c, 0.05, 0.05, 0),
+              par("pKa1", d::Role::pKa, 4.0, 1.0, 1, 0),
+              par("pKa2", d::Role::pKa, 9.0, 1.0, 2, 1),
+              par("carbonate_fraction", d::Role::carbonate, 0.01, 0.01, 3)};
   if (signal == veq::SignalKind::ph) {
     L.params.push_back(par("offset", d::Role::offset, 0.02, 1.0, 4));
   } else {

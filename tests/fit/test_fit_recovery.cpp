@@ -5,7 +5,6 @@
 // (REFERENCES §2), so a fit that returns them returns the handbook's numbers. Tolerance 1e-6 relative
 // (issue 5): the readings are exact, so only the solver's convergence limits the agreement.
 #include <catch2/catch.hpp>
-
 #include <map>
 #include <string>
 
@@ -122,7 +121,8 @@ TEST_CASE("noise-free runs of every model kind fit back to their parameters to 1
   REQUIRE_FALSE(f.equivalence.empty());
   for (const auto& e : f.equivalence) {
     bool found = false;
-    for (const auto& ep : sim.equivalence_points) found = found || std::fabs(e.volume_mL - ep.volume_mL) <= 1e-6 * ep.volume_mL;
+    for (const auto& ep : sim.equivalence_points)
+      found = found || std::fabs(e.volume_mL - ep.volume_mL) <= 1e-6 * ep.volume_mL;
     CAPTURE(e.volume_mL);
     CHECK(found);
   }

@@ -2,13 +2,11 @@
 // The fit inside analyze() and the reports: JSON fit object, text summary, consensus, indicators, CLI flags,
 // skipped and failed fits, option defaults.
 #include <catch2/catch.hpp>
-
 #include <cmath>
 #include <filesystem>
 #include <fstream>
-#include <sstream>
-
 #include <nlohmann/json.hpp>
+#include <sstream>
 
 #include "cli/cli.hpp"
 #include "fit/fit_support.hpp"
@@ -134,7 +132,8 @@ TEST_CASE("the text summary shows the fit beside the endpoint and a fit paragrap
   CHECK(t.find("runner-up") != std::string::npos);
 }
 
-TEST_CASE("without V0 and Ct the fit is skipped with a warning, and the endpoints are still reported", "[fit][report]") {
+TEST_CASE("without V0 and Ct the fit is skipped with a warning, and the endpoints are still reported",
+          "[fit][report]") {
   veq::Run r = veq::test::run_from_simulation(acetic(0.01, 3), false);
   r.facts.sample_volume_mL.reset();
   const veq::Analysis a = veq::analyze(r);
@@ -243,8 +242,19 @@ TEST_CASE("veq analyze: --model, --no-fit, --fit-hold and the fit in --json", "[
   const CliResult d = run_cli({"analyze", file, "--model", "nonsense"});
   CHECK(d.code == veq::cli::kExitUsage);
   CHECK(d.err.find("nonsense") != std::string::npos);
-  const CliResult e = run_cli({"analyze", file, "--fit-loss", "cauchy", "--fit-criterion", "aicc", "--fit-hold",
-                               "pKa1=4.756", "--model", "weak_acid", "--json", "-", "-q"});
+  const CliResult e = run_cli({"analyze",
+                               file,
+                               "--fit-loss",
+                               "cauchy",
+                               "--fit-criterion",
+                               "aicc",
+                               "--fit-hold",
+                               "pKa1=4.756",
+                               "--model",
+                               "weak_acid",
+                               "--json",
+                               "-",
+                               "-q"});
   REQUIRE(e.code == veq::cli::kExitOk);
   const nlohmann::json je = nlohmann::json::parse(e.out);
   CHECK(je["fit"]["criterion"] == "aicc");

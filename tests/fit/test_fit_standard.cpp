@@ -55,7 +55,8 @@ TEST_CASE("a simulated KHP standardisation recovers pKa2 5.41 and the titrant fa
   CHECK(f.equivalence[0].volume_mL == veq::test::close(kMass_g / kKhpMolarMass / (0.1 * kTiter) * 1000.0, 1e-6));
 }
 
-TEST_CASE("a standardisation method supplies the standard: titer fitted, result from the fitted volume", "[fit][method]") {
+TEST_CASE("a standardisation method supplies the standard: titer fitted, result from the fitted volume",
+          "[fit][method]") {
   const veq::chem::Simulation sim = khp_run();
   // A noisy run (0.004 pH), so that the fit must pass its checks to be used.
   veq::chem::SimulationOptions so = sim.options;

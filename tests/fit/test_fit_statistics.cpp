@@ -1,7 +1,6 @@
 // SPDX-License-Identifier: MIT
 // The fit's statistics: runs test, Durbin–Watson, information criteria, Student t quantiles.
 #include <catch2/catch.hpp>
-
 #include <cmath>
 
 #include "support/approx.hpp"

@@ -35,10 +35,10 @@ double lre(double value, double certified) {
 
 // Misra1a (lower difficulty): y = b1 (1 - exp(-b2 x)); Misra1d (average): y = b1 b2 x / (1 + b2 x).
 // Same 14 observations (Misra, NIST 1978, dental research monomolecular adsorption).
-const std::vector<double> kMisraX = {77.6, 114.9, 141.1, 190.8, 239.9, 289.0, 332.8,
-                                     378.4, 434.8, 477.3, 536.8, 593.1, 689.1, 760.0};
-const std::vector<double> kMisraY = {10.07, 14.73, 17.94, 23.93, 29.61, 35.18, 40.02,
-                                     44.82, 50.76, 55.05, 61.01, 66.40, 75.47, 81.78};
+const std::vector<double> kMisraX = {
+    77.6, 114.9, 141.1, 190.8, 239.9, 289.0, 332.8, 378.4, 434.8, 477.3, 536.8, 593.1, 689.1, 760.0};
+const std::vector<double> kMisraY = {
+    10.07, 14.73, 17.94, 23.93, 29.61, 35.18, 40.02, 44.82, 50.76, 55.05, 61.01, 66.40, 75.47, 81.78};
 
 struct Misra1a {
   double x, y;
@@ -99,7 +99,8 @@ void grade(const Problem& p, int start, double min_digits_parameters, double min
   for (std::size_t i = 0; i < p.x.size(); ++i) {
     problem.AddResidualBlock(
         new ceres::AutoDiffCostFunction<Scaled<Functor, K>, 1, K>(new Scaled<Functor, K>{{p.x[i], p.y[i]}, scale}),
-        nullptr, u.data());
+        nullptr,
+        u.data());
   }
   // The fitter's settings, as for a titration (FitOptions defaults; the iteration limit raised where said).
   veq::fit::FitOptions options;
@@ -114,7 +115,8 @@ void grade(const Problem& p, int start, double min_digits_parameters, double min
   const double s2 = rss / static_cast<double>(p.x.size() - K);  // residual variance, as the fit scales it
   for (int j = 0; j < K; ++j) {
     const auto jj = static_cast<std::size_t>(j);
-    CAPTURE(j, lre(u[jj] * scale[jj], p.certified[jj]), lre(std::sqrt(s2 * (*cov)(j, j)) * scale[jj], p.certified_sd[jj]));
+    CAPTURE(
+        j, lre(u[jj] * scale[jj], p.certified[jj]), lre(std::sqrt(s2 * (*cov)(j, j)) * scale[jj], p.certified_sd[jj]));
     CHECK(lre(u[jj] * scale[jj], p.certified[jj]) >= min_digits_parameters);
     CHECK(lre(std::sqrt(s2 * (*cov)(j, j)) * scale[jj], p.certified_sd[jj]) >= min_digits_sd);
   }
@@ -122,7 +124,8 @@ void grade(const Problem& p, int start, double min_digits_parameters, double min
 
 }  // namespace
 
-TEST_CASE("StRD Misra1a (lower difficulty): 7 digits of the parameters, 6 of their standard deviations", "[fit][strd]") {
+TEST_CASE("StRD Misra1a (lower difficulty): 7 digits of the parameters, 6 of their standard deviations",
+          "[fit][strd]") {
   Problem p;
   p.name = "Misra1a";
   p.x = kMisraX;
@@ -135,7 +138,8 @@ TEST_CASE("StRD Misra1a (lower difficulty): 7 digits of the parameters, 6 of the
   grade<Misra1a, 2>(p, start, 7.0, 6.0);
 }
 
-TEST_CASE("StRD Misra1d (average difficulty): 7 digits of the parameters, 6 of their standard deviations", "[fit][strd]") {
+TEST_CASE("StRD Misra1d (average difficulty): 7 digits of the parameters, 6 of their standard deviations",
+          "[fit][strd]") {
   Problem p;
   p.name = "Misra1d";
   p.x = kMisraX;
@@ -148,7 +152,8 @@ TEST_CASE("StRD Misra1d (average difficulty): 7 digits of the parameters, 6 of t
   grade<Misra1d, 2>(p, start, 7.0, 6.0);
 }
 
-TEST_CASE("StRD MGH09 (higher difficulty), start 2: 5 digits of the parameters and of their standard deviations", "[fit][strd]") {
+TEST_CASE("StRD MGH09 (higher difficulty), start 2: 5 digits of the parameters and of their standard deviations",
+          "[fit][strd]") {
   Problem p;
   p.name = "MGH09";
   p.x = {4.0, 2.0, 1.0, 0.5, 0.25, 0.167, 0.125, 0.1, 0.0833, 0.0714, 0.0625};
@@ -161,7 +166,10 @@ TEST_CASE("StRD MGH09 (higher difficulty), start 2: 5 digits of the parameters a
   grade<Mgh09, 4>(p, 1, 5.0, 5.0);
 }
 
-TEST_CASE("StRD MGH10 (higher difficulty), start 2, 1000 iterations: 5 digits of the parameters and of their standard deviations", "[fit][strd]") {
+TEST_CASE(
+    "StRD MGH10 (higher difficulty), start 2, 1000 iterations: 5 digits of the parameters and of their standard "
+    "deviations",
+    "[fit][strd]") {
   Problem p;
   p.name = "MGH10";
   p.x = {50, 55, 60, 65, 70, 75, 80, 85, 90, 95, 100, 105, 110, 115, 120, 125};

@@ -28,18 +28,18 @@ namespace veq::fit {
 // are thermodynamic (I -> 0) at the run's temperature, of the conjugate acid
 // for bases.
 enum class ModelKind {
-  strong_acid,          // HX; parameter c
-  weak_acid,            // HA; c, pKa1
-  diprotic_acid,        // H2A; c, pKa1, pKa2
-  triprotic_acid,       // H3A; c, pKa1..pKa3
-  strong_weak_acid,     // HX + HA; c_strong, c, pKa1
-  strong_base,          // MOH; c
-  weak_base,            // B (conjugate acid BH+); c, pKa1
-  carbonate_base,       // A2- added as its salt (Na2CO3-type); c, pKa1, pKa2
-  strong_weak_base,     // MOH + B; c_strong, c, pKa1
-  hydroxide_carbonate,  // MOH + Na2CO3-type; c_strong, c, pKa1, pKa2
+  strong_acid,            // HX; parameter c
+  weak_acid,              // HA; c, pKa1
+  diprotic_acid,          // H2A; c, pKa1, pKa2
+  triprotic_acid,         // H3A; c, pKa1..pKa3
+  strong_weak_acid,       // HX + HA; c_strong, c, pKa1
+  strong_base,            // MOH; c
+  weak_base,              // B (conjugate acid BH+); c, pKa1
+  carbonate_base,         // A2- added as its salt (Na2CO3-type); c, pKa1, pKa2
+  strong_weak_base,       // MOH + B; c_strong, c, pKa1
+  hydroxide_carbonate,    // MOH + Na2CO3-type; c_strong, c, pKa1, pKa2
   carbonate_bicarbonate,  // Na2CO3 + NaHCO3-type (one acid, two salts): c, c_bicarbonate, pKa1, pKa2
-  analyte,              // a substance of the analyte table (FitOptions::model names it); c, its pKa values
+  analyte,                // a substance of the analyte table (FitOptions::model names it); c, its pKa values
 };
 
 // "strong_acid", "weak_acid", ... ("analyte" for ModelKind::analyte).
@@ -135,25 +135,25 @@ struct FitInputs {
 };
 
 // Stable flag strings of a fit (JSON flags[], tests).
-inline constexpr const char* kFlagNotConverged = "not_converged";        // the solver stopped without converging
-inline constexpr const char* kFlagAtBound = "at_bound";                  // a free parameter ended on its bound
+inline constexpr const char* kFlagNotConverged = "not_converged";          // the solver stopped without converging
+inline constexpr const char* kFlagAtBound = "at_bound";                    // a free parameter ended on its bound
 inline constexpr const char* kFlagCovarianceFailed = "covariance_failed";  // parameters not all identifiable
-inline constexpr const char* kFlagResidualPattern = "residual_pattern";  // runs test: the model misses a shape
-inline constexpr const char* kFlagPoorFit = "poor_fit";                  // residual SD well above the noise
-inline constexpr const char* kFlagAmbiguous = "ambiguous_model";         // runner-up within 2 criterion units
-inline constexpr const char* kFlagSkipped = "skipped";                   // not run (facts missing, too few points)
-inline constexpr const char* kFlagFailed = "failed";                     // no candidate could be fitted
+inline constexpr const char* kFlagResidualPattern = "residual_pattern";    // runs test: the model misses a shape
+inline constexpr const char* kFlagPoorFit = "poor_fit";                    // residual SD well above the noise
+inline constexpr const char* kFlagAmbiguous = "ambiguous_model";           // runner-up within 2 criterion units
+inline constexpr const char* kFlagSkipped = "skipped";                     // not run (facts missing, too few points)
+inline constexpr const char* kFlagFailed = "failed";                       // no candidate could be fitted
 
 // One fitted (or held) parameter.
 struct Parameter {
-  std::string name;                      // "c", "pKa1", "offset", ...
-  std::string unit;                      // "mol/L", "", "pH", "mV", "mV/pH"
+  std::string name;  // "c", "pKa1", "offset", ...
+  std::string unit;  // "mol/L", "", "pH", "mV", "mV/pH"
   double value = 0.0;
-  bool fixed = false;                    // held, not fitted (no std_error then)
-  std::optional<double> std_error;       // from the scaled covariance
-  std::optional<double> ci95_low;        // value -+ t(0.975, n - p) x std_error
+  bool fixed = false;               // held, not fitted (no std_error then)
+  std::optional<double> std_error;  // from the scaled covariance
+  std::optional<double> ci95_low;   // value -+ t(0.975, n - p) x std_error
   std::optional<double> ci95_high;
-  double lower_bound = 0.0;              // the box the solver kept it in
+  double lower_bound = 0.0;  // the box the solver kept it in
   double upper_bound = 0.0;
 };
 
@@ -168,21 +168,21 @@ struct FittedEquivalence {
 
 // Residual-pattern statistics.
 struct ResidualTests {
-  int runs = 0;                     // sign runs of the residuals in volume order
-  double expected_runs = 0.0;       // 2 n+ n- / n + 1
-  double runs_z = 0.0;              // (runs - expected) / SD
-  double runs_p = 1.0;              // one-sided P(fewer runs) under independence
-  bool runs_tested = false;         // false when n < 10 or residuals are below the reading resolution
-  double durbin_watson = 2.0;       // sum (e_i - e_(i-1))^2 / sum e_i^2
+  int runs = 0;                // sign runs of the residuals in volume order
+  double expected_runs = 0.0;  // 2 n+ n- / n + 1
+  double runs_z = 0.0;         // (runs - expected) / SD
+  double runs_p = 1.0;         // one-sided P(fewer runs) under independence
+  bool runs_tested = false;    // false below 10 signs, or when the residual scale is below 0.1 noise SD
+  double durbin_watson = 2.0;  // sum (e_i - e_(i-1))^2 / sum e_i^2
 };
 
 // How the chemistry was solved during one fit (for benchmarks and bug reports).
 struct SolverStats {
-  long evaluations = 0;         // residual evaluations (with or without the Jacobian)
+  long evaluations = 0;  // residual evaluations (with or without the Jacobian)
   long jacobian_evaluations = 0;
-  long point_solves = 0;        // readings solved again for a new parameter set
-  long newton_iterations = 0;   // warm Newton iterations over all of them
-  long bracketed_fallbacks = 0; // solves that needed the bracketing solver
+  long point_solves = 0;         // readings solved again for a new parameter set
+  long newton_iterations = 0;    // warm Newton iterations over all of them
+  long bracketed_fallbacks = 0;  // solves that needed the bracketing solver
 };
 
 // What the solver did (Ceres termination, as text).
@@ -196,27 +196,27 @@ enum class FitStatus {
 
 // One fitted model.
 struct FitSummary {
-  std::string model;            // kind name, or the analyte's name
+  std::string model;  // kind name, or the analyte's name
   ModelKind kind = ModelKind::weak_acid;
   FitStatus status = FitStatus::not_run;
-  std::string termination;      // Ceres' termination type and message
+  std::string termination;  // Ceres' termination type and message
   int iterations = 0;
   SolverStats solver;
-  int points = 0;               // readings fitted
+  int points = 0;  // readings fitted
   int free_parameters = 0;
-  double cost = 0.0;            // 1/2 sum rho(r_i^2) at the solution [signal unit^2]
-  double residual_sd = 0.0;     // sqrt(sum r_i^2 / (n - p)) [signal unit]
-  double scale_sd = 0.0;        // the M-estimate scale that multiplies the covariance [signal unit]
+  double cost = 0.0;         // 1/2 sum rho(r_i^2) at the solution [signal unit^2]
+  double residual_sd = 0.0;  // sqrt(sum r_i^2 / (n - p)) [signal unit]
+  double scale_sd = 0.0;     // the M-estimate scale that multiplies the covariance [signal unit]
   double aicc = 0.0;
   double bic = 0.0;
-  double score = 0.0;           // the criterion used (bic or aicc)
+  double score = 0.0;                  // the criterion used (bic or aicc)
   SignalKind signal = SignalKind::ph;  // unit of the residuals
   std::vector<Parameter> parameters;
   std::vector<std::vector<double>> correlation;  // between the free parameters, in parameters order
   std::vector<std::string> correlation_names;    // their names
   std::vector<FittedEquivalence> equivalence;
   ResidualTests residual_tests;
-  std::vector<double> residuals;  // measured - model, per reading fitted [signal unit]
+  std::vector<double> residuals;            // measured - model, per reading fitted [signal unit]
   std::vector<double> residual_volumes_mL;  // their volumes [mL]
   std::vector<std::string> flags;
   // The fitted chemistry: pH(V) of the fitted model (the electrode excluded).
@@ -244,10 +244,10 @@ struct FitResult {
   FitStatus status = FitStatus::not_run;  // of the chosen model; not_run when not attempted
   std::string message;                    // why not run or failed ("" otherwise)
   Criterion criterion = Criterion::bic;
-  std::optional<FitSummary> best;         // the chosen model
-  std::vector<ModelScore> candidates;     // every candidate tried, best first
-  std::optional<ModelScore> runner_up;    // the second best, when there was one
-  std::vector<std::string> flags;         // skipped, failed (the model's own flags are in best)
+  std::optional<FitSummary> best;       // the chosen model
+  std::vector<ModelScore> candidates;   // every candidate tried, best first
+  std::optional<ModelScore> runner_up;  // the second best, when there was one
+  std::vector<std::string> flags;       // skipped, failed (the model's own flags are in best)
   std::vector<Diagnostic> warnings;
 
   // best && best->usable().
