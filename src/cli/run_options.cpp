@@ -55,8 +55,8 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_flag("--no-fit", o.no_fit, "Do not fit the curve")->group(fit);
   cmd->add_option("--model", o.model,
                   "Fit this model only: strong_acid, weak_acid, diprotic_acid, triprotic_acid, strong_weak_acid, "
-                  "strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, or a substance "
-                  "of the analyte table (e.g. KHP) (default: chosen by BIC)")
+                  "strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, carbonate_bicarbonate, "
+                  "or a substance of the analyte table (e.g. KHP) (default: chosen by BIC)")
       ->group(fit);
   cmd->add_flag("--fit-titer", o.fit_titer,
                 "Fit the titrant factor (needs a standardisation method giving the standard's mass and molar mass)")
