@@ -124,7 +124,7 @@ void grade(const Problem& p, int start, double min_digits_parameters, double min
 
 }  // namespace
 
-TEST_CASE("StRD Misra1a (lower difficulty): 7 digits of the parameters, 6 of their standard deviations",
+TEST_CASE("StRD Misra1a (lower difficulty): 7 digits of the parameters and of their standard deviations",
           "[fit][strd]") {
   Problem p;
   p.name = "Misra1a";
@@ -135,10 +135,10 @@ TEST_CASE("StRD Misra1a (lower difficulty): 7 digits of the parameters, 6 of the
   p.certified_sd = {2.7070075241e+00, 7.2668688436e-06};
   p.certified_rss = 1.2455138894e-01;
   const int start = GENERATE(0, 1);
-  grade<Misra1a, 2>(p, start, 7.0, 6.0);
+  grade<Misra1a, 2>(p, start, 7.0, 7.0);
 }
 
-TEST_CASE("StRD Misra1d (average difficulty): 7 digits of the parameters, 6 of their standard deviations",
+TEST_CASE("StRD Misra1d (average difficulty): 7 digits of the parameters and of their standard deviations",
           "[fit][strd]") {
   Problem p;
   p.name = "Misra1d";
@@ -149,7 +149,7 @@ TEST_CASE("StRD Misra1d (average difficulty): 7 digits of the parameters, 6 of t
   p.certified_sd = {3.6489174345e+00, 2.9334354479e-06};
   p.certified_rss = 5.6419295283e-02;
   const int start = GENERATE(0, 1);
-  grade<Misra1d, 2>(p, start, 7.0, 6.0);
+  grade<Misra1d, 2>(p, start, 7.0, 7.0);
 }
 
 TEST_CASE("StRD MGH09 (higher difficulty), start 2: 5 digits of the parameters and of their standard deviations",
@@ -178,5 +178,5 @@ TEST_CASE(
   p.certified = {5.6096364710e-03, 6.1813463463e+03, 3.4522363462e+02};
   p.certified_sd = {1.5687892471e-04, 2.3309021107e+01, 7.8486103508e-01};
   p.certified_rss = 8.7945855171e+01;
-  grade<Mgh10, 3>(p, 1, 5.0, 5.0, 1000);
+  grade<Mgh10, 3>(p, 1, 7.0, 7.0, 1000);
 }
