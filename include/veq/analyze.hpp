@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "veq/core/run.hpp"
+#include "veq/fit/fit.hpp"
 #include "veq/indicators/colour_change.hpp"
 #include "veq/method/method.hpp"
 #include "veq/method/result.hpp"
@@ -21,6 +22,9 @@ struct AnalyzeOptions {
   signal::EndpointOptions endpoints;
   signal::GranOptions gran;
   indicators::IndicatorOptions indicators;
+  // The charge-balance fit (run when the sample volume and titrant
+  // concentration are known; skipped with a warning otherwise).
+  fit::FitOptions fit;
   // A method turns endpoints into reportable results (none: endpoints only).
   std::optional<method::Method> method;
 
@@ -34,14 +38,15 @@ struct Analysis {
   Curve curve;
   signal::EndpointResult endpoints;  // volume_mL of each is the consensus of its methods
   std::vector<signal::GranEndpoint> gran;  // one per endpoint (empty branches when skipped)
+  fit::FitResult fit;                      // the charge-balance fit (status not_run when skipped)
   indicators::IndicatorResult indicators;  // per endpoint: indicators that change colour there
   std::optional<method::ResultSet> results;  // when a method was given
   std::string results_error;               // why the method's results could not be computed ("" if they were)
-  std::vector<Diagnostic> warnings;  // run, curve, endpoint, Gran and indicator warnings, in that order
+  std::vector<Diagnostic> warnings;  // run, curve, endpoint, Gran, fit and indicator warnings, in that order
 };
 
-// Runs prepare, derivative endpoints, Gran, the consensus and the indicator
-// check on a run read by ingest. Never throws
+// Runs prepare, derivative endpoints, Gran, the charge-balance fit, the
+// consensus and the indicator check on a run read by ingest. Never throws
 // for curve content (no endpoint is a warning); throws InputError only for
 // invalid options.
 [[nodiscard]] Analysis analyze(Run run, const AnalyzeOptions& options = {});

@@ -58,6 +58,35 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_option("--drop-volume", o.drop_volume_mL, "Volume of one drop from the burette [mL] (default 0.05)")
       ->group("Indicators")
       ->check(CLI::Range(0.001, 1.0));
+  const char* fit = "Charge-balance fit (needs the sample volume and titrant concentration)";
+  cmd->add_flag("--no-fit", o.no_fit, "Do not fit the curve")->group(fit);
+  cmd->add_option("--model", o.model,
+                  "Fit this model only: strong_acid, weak_acid, diprotic_acid, triprotic_acid, strong_weak_acid, "
+                  "strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, carbonate_bicarbonate, "
+                  "or a substance of the analyte table (e.g. KHP) (default: chosen by BIC)")
+      ->group(fit);
+  cmd->add_flag("--fit-titer", o.fit_titer,
+                "Fit the titrant factor (needs a standardisation method giving the standard's mass and molar mass)")
+      ->group(fit);
+  cmd->add_flag("--fit-carbonate", o.fit_carbonate, "Fit the carbonate fraction of a base titrant")->group(fit);
+  cmd->add_flag("--fix-electrode", o.fix_electrode,
+                "Hold the electrode: offset 0 (pH), or Nernst slope and the best starting E0 (mV)")
+      ->group(fit);
+  cmd->add_option("--fit-hold", o.fit_hold, "Hold a parameter at a value, NAME=VALUE (e.g. pKa1=2.95); repeatable")
+      ->group(fit);
+  cmd->add_option("--fit-loss", o.fit_loss, "Robust loss: huber (default), cauchy or none")
+      ->group(fit)
+      ->check(CLI::IsMember({"huber", "cauchy", "none"}));
+  cmd->add_option("--fit-loss-scale", o.fit_loss_scale, "Loss threshold in reading-noise SDs (default 3)")
+      ->group(fit)
+      ->check(CLI::Range(0.1, 100.0));
+  cmd->add_option("--fit-criterion", o.fit_criterion, "Model selection criterion: bic (default) or aicc")
+      ->group(fit)
+      ->check(CLI::IsMember({"aicc", "bic"}));
+  cmd->add_flag("--fit-ideal", o.fit_ideal, "Fit with activity coefficients 1 (default: Davies)")->group(fit);
+  cmd->add_option("--ionic-strength", o.ionic_strength_mol_L, "Background electrolyte of the sample, as ionic strength [mol/L]")
+      ->group(fit)
+      ->check(CLI::Range(0.0, 5.0));
 }
 
 ingest::IngestOptions ingest_options(const RunOptions& o) {
@@ -107,6 +136,27 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
     ao.gran.window_mL = std::make_pair(from, to);
   }
   if (o.drop_volume_mL) ao.indicators.drop_volume_mL = *o.drop_volume_mL;
+  ao.fit.enabled = !o.no_fit;
+  ao.fit.model = o.model;
+  ao.fit.fit_titer = o.fit_titer;
+  ao.fit.fit_carbonate = o.fit_carbonate;
+  ao.fit.fit_electrode = !o.fix_electrode;
+  for (const std::string& h : o.fit_hold) {
+    const auto eq = h.find('=');
+    double value = 0;
+    char extra = 0;
+    if (eq == std::string::npos || eq == 0 || std::sscanf(h.c_str() + eq + 1, "%lf%c", &value, &extra) != 1 ||
+        !std::isfinite(value)) {
+      throw InputError({"--fit-hold", 0, 0}, "'" + h + "' is not of the form NAME=VALUE", "e.g. --fit-hold pKa1=2.95");
+    }
+    ao.fit.hold.emplace_back(h.substr(0, eq), value);
+  }
+  if (o.fit_loss == "cauchy") ao.fit.loss = fit::LossKind::cauchy;
+  if (o.fit_loss == "none") ao.fit.loss = fit::LossKind::none;
+  if (o.fit_loss_scale) ao.fit.loss_scale = *o.fit_loss_scale;
+  if (o.fit_criterion == "aicc") ao.fit.criterion = fit::Criterion::aicc;
+  if (o.fit_ideal) ao.fit.activity = chem::ActivityModel::ideal;
+  if (o.ionic_strength_mol_L) ao.fit.background_ionic_strength_mol_L = *o.ionic_strength_mol_L;
   if (const auto p = ao.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   return ao;
 }
@@ -136,14 +186,22 @@ std::string fingerprint(const RunOptions& o) {
   // Every option that can change a result. The method file is not here: its
   // content hash enters the batch's resumability key on its own.
   auto num = [](const std::optional<double>& v) { return v ? fmt::format("{:.17g}", *v) : std::string("-"); };
+  std::string holds;
+  for (const auto& h : o.fit_hold) holds += (holds.empty() ? "" : "|") + h;
   return fmt::format(
       "sample_volume={};titrant_conc={};titrant={};temperature={};columns={};volume_unit={};signal={};sort={};"
       "max_size={:.17g};e0={};slope={};buffers={};window={};min_height={};min_separation={};gran_window={};"
-      "analyte_charge={};drop_volume={}",
+      "analyte_charge={};drop_volume={};no_fit={};model={};fit_titer={};fit_carbonate={};fix_electrode={};"
+      "fit_hold={};fit_loss={};fit_loss_scale={};fit_criterion={};fit_ideal={};ionic_strength={}",
       num(o.sample_volume_mL), num(o.titrant_conc_mol_L), o.titrant, num(o.temperature_C), o.columns, o.volume_unit,
       o.signal, o.sort, o.max_size_MiB, num(o.e0_mV), num(o.slope_mV), o.buffers, o.window, num(o.min_height),
       num(o.min_separation_mL), o.gran_window, o.analyte_charge ? std::to_string(*o.analyte_charge) : std::string("-"),
-      num(o.drop_volume_mL));
+      num(o.drop_volume_mL), o.no_fit, o.model, o.fit_titer, o.fit_carbonate, o.fix_electrode, holds, o.fit_loss,
+      num(o.fit_loss_scale), o.fit_criterion, o.fit_ideal, num(o.ionic_strength_mol_L));
 }
+
+// Any new field of RunOptions must be added to fingerprint() above: a batch resumed after a changed
+// option would otherwise keep stale results. The size check reminds whoever adds one.
+static_assert(sizeof(RunOptions) == 560, "RunOptions changed: update fingerprint() and this size");
 
 }  // namespace veq::cli

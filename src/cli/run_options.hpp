@@ -4,6 +4,7 @@
 
 #include <optional>
 #include <string>
+#include <vector>
 
 #include <CLI/CLI.hpp>
 
@@ -33,6 +34,18 @@ struct RunOptions {
   std::string method_file;  // --method
   std::optional<int> analyte_charge;  // --analyte-charge
   std::optional<double> drop_volume_mL;  // --drop-volume: one drop from the burette [mL]
+  // The charge-balance fit.
+  bool no_fit = false;                 // --no-fit
+  std::string model;                   // --model: a model kind or an analyte-table substance ("" = choose)
+  bool fit_titer = false;              // --fit-titer
+  bool fit_carbonate = false;          // --fit-carbonate
+  bool fix_electrode = false;          // --fix-electrode
+  std::vector<std::string> fit_hold;   // --fit-hold NAME=VALUE (repeatable)
+  std::string fit_loss;                // --fit-loss huber|cauchy|none
+  std::optional<double> fit_loss_scale;  // --fit-loss-scale (noise SDs)
+  std::string fit_criterion;           // --fit-criterion aicc|bic
+  bool fit_ideal = false;              // --fit-ideal: activity coefficients 1
+  std::optional<double> ionic_strength_mol_L;  // --ionic-strength: background electrolyte of the sample [mol/L]
 };
 
 // Adds the shared options to a subcommand.

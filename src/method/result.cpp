@@ -102,7 +102,8 @@ std::vector<BudgetItem> uncertainty_budget(const FormulaInputs& in, double& u_co
 
 ResultSet compute_results(const Method& m, const Run& run, const Curve& curve,
                           const std::vector<signal::Endpoint>& endpoints,
-                          const std::vector<signal::GranEndpoint>& gran) {
+                          const std::vector<signal::GranEndpoint>& gran,
+                          const std::vector<std::optional<FittedVolume>>& fitted) {
   ResultSet out;
   out.method_name = m.name;
   out.method_path = m.path;
@@ -232,9 +233,19 @@ ResultSet compute_results(const Method& m, const Run& run, const Curve& curve,
           in.volume_u_mL = b->uncertainty_mL;
           break;
         }
-        case VolumeSource::fit:
-          fail(spec.line, fmt::format("result '{}' asks for the fitted volume, and the run has no fit result", spec.name),
-               "use volume_from = \"consensus\"");
+        case VolumeSource::fit: {
+          const std::size_t i = static_cast<std::size_t>(idx - 1);
+          if (i >= fitted.size() || !fitted[i]) {
+            fail(spec.line,
+                 fmt::format("result '{}' asks for the fitted volume of endpoint {}, and the run has no usable "
+                             "charge-balance fit there", spec.name, idx),
+                 "the fit needs the sample volume and titrant concentration and must pass its checks (see the run's "
+                 "warnings); or use volume_from = \"consensus\"");
+          }
+          in.volume_mL = fitted[i]->volume_mL;
+          in.volume_u_mL = fitted[i]->uncertainty_mL;
+          break;
+        }
       }
     }
     r.endpoint_volume_mL = in.volume_mL;

@@ -7,6 +7,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "report/fit_sections.hpp"
 #include "report/indicator_sections.hpp"
 
 namespace veq::report {
@@ -195,8 +196,10 @@ std::string to_json(const Analysis& a) {
       if (a.gran[i].before) methods["gran"] = gran_json(*a.gran[i].before);
       if (a.gran[i].after) methods["gran_after"] = gran_json(*a.gran[i].after);
     }
+    detail::add_endpoint_fit(methods, a, e.index);
     ej["methods"] = methods;
     ej["consensus_methods"] = e.consensus_methods;
+    ej["consensus_left_out"] = e.consensus_left_out;
     ej["peak_slope"] = significant(e.peak_slope, 6);
     ej["snr"] = significant(e.snr, 3);
     ej["flags"] = e.flags;
@@ -204,6 +207,7 @@ std::string to_json(const Analysis& a) {
     eps.push_back(ej);
   }
   j["endpoints"] = eps;
+  j["fit"] = detail::fit_json(a);
   if (a.results || !a.results_error.empty()) {
     ordered_json mj;
     mj["name"] = a.results ? a.results->method_name : std::string();

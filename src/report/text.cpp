@@ -7,6 +7,7 @@
 
 #include <fmt/format.h>
 
+#include "report/fit_sections.hpp"
 #include "report/indicator_sections.hpp"
 
 namespace veq::report {
@@ -69,6 +70,7 @@ std::string to_text(const Analysis& a) {
         if (b->pKa) out += fmt::format("; pKa {:.2f}{}", *b->pKa, b->pKa_activity_corrected ? "" : " (not corrected for activity)");
         out += "\n";
       }
+      out += detail::endpoint_fit_line(a, e.index);
       if (e.consensus_methods.size() > 1 || e.consensus_methods.front() != "derivative") {
         std::string m;
         for (const auto& x : e.consensus_methods) m += (m.empty() ? "" : " + ") + x;
@@ -77,6 +79,7 @@ std::string to_text(const Analysis& a) {
     }
     out += detail::endpoint_indicators_line(a, e.index);
   }
+  out += detail::fit_block(a);
   if (a.results) {
     out += "  Method: " + a.results->method_name + "\n";
     for (const auto& r : a.results->results) {

@@ -423,7 +423,7 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   return out;
 }
 
-Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
+Consensus consensus(const Endpoint& e, const GranEndpoint& g, const std::optional<VolumeEstimate>& fitted) {
   struct Est {
     std::string name;
     double v, u;
@@ -433,22 +433,35 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
   const bool d_flagged = std::any_of(e.flags.begin(), e.flags.end(), [](const std::string& f) {
     return f == kFlagEdge || f == kFlagFewPoints;
   });
-  all.push_back({"derivative", e.volume_mL, e.uncertainty_mL, d_flagged});
+  all.push_back({"derivative", e.derivative_volume_mL, e.derivative_uncertainty_mL, d_flagged});
   if (g.before && g.before->linear) all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
   if (g.after && g.after->linear) all.push_back({"gran_after", g.after->volume_mL, g.after->uncertainty_mL, false});
+  if (fitted) all.push_back({"fit", fitted->volume_mL, fitted->uncertainty_mL, false});
   const bool any_clean = std::any_of(all.begin(), all.end(), [](const Est& x) { return !x.flagged; });
   auto apart = [](const Est& a, const Est& b) {
     return std::fabs(a.v - b.v) > 2.0 * std::sqrt(a.u * a.u + b.u * b.u);
   };
+  // The reference the others must agree with: a usable fit (it models the whole curve,
+  // asymmetry and activity included), else a clean derivative estimate (model-free).
+  const Est* reference = nullptr;
+  if (fitted) reference = &all.back();
+  else if (!d_flagged) reference = &all.front();
+  Consensus c;
   std::vector<Est> used;
   for (const auto& x : all) {
-    if (any_clean && x.flagged) continue;
-    // A Gran line that disagrees with a clean, model-free derivative estimate rests on
-    // chemistry that does not hold here (activity, a further weak step, a mixture): leave it out.
-    if (x.name != "derivative" && !d_flagged && apart(x, all.front())) continue;
+    if (any_clean && x.flagged) {
+      c.left_out.push_back(x.name);
+      continue;
+    }
+    // An estimate that disagrees with the reference rests on chemistry that does not hold
+    // here (a Gran line under changing activity or a further weak step; an inflection that
+    // is not the equivalence point of an asymmetric curve): leave it out.
+    if (reference != nullptr && &x != reference && apart(x, *reference)) {
+      c.left_out.push_back(x.name);
+      continue;
+    }
     used.push_back(x);
   }
-  Consensus c;
   double sw = 0, swv = 0;
   for (const auto& x : used) {
     const double u = std::max(x.u, 1e-6);
@@ -467,14 +480,16 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g) {
     }
     const double birge = std::sqrt(chi2 / static_cast<double>(used.size() - 1));
     if (birge > 1) u *= birge;
+    // The estimates kept still scatter twice as much as their uncertainties allow.
+    c.disagree = birge > 2.0;
   }
-  c.uncertainty_mL = u;
-  for (std::size_t i = 0; i < all.size(); ++i) {
-    for (std::size_t j = i + 1; j < all.size(); ++j) {
-      const double comb = std::sqrt(all[i].u * all[i].u + all[j].u * all[j].u);
-      if (std::fabs(all[i].v - all[j].v) > 2.0 * comb) c.disagree = true;
+  // Without a reference (only flagged estimates), two that are far apart also flag it.
+  if (reference == nullptr) {
+    for (std::size_t i = 0; i < used.size(); ++i) {
+      for (std::size_t j = i + 1; j < used.size(); ++j) c.disagree = c.disagree || apart(used[i], used[j]);
     }
   }
+  c.uncertainty_mL = u;
   return c;
 }
 

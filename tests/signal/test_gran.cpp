@@ -167,8 +167,8 @@ TEST_CASE("missing sample volume: Gran is skipped with a warning, never guessed"
 
 TEST_CASE("consensus: inverse-variance mean, disagreement flagged", "[signal][gran]") {
   veq::signal::Endpoint e;
-  e.volume_mL = 10.00;
-  e.uncertainty_mL = 0.02;
+  e.derivative_volume_mL = 10.00;
+  e.derivative_uncertainty_mL = 0.02;
   veq::signal::GranEndpoint g;
   g.before = veq::signal::GranBranch{};
   g.before->volume_mL = 10.01;
@@ -179,8 +179,31 @@ TEST_CASE("consensus: inverse-variance mean, disagreement flagged", "[signal][gr
   CHECK(c.volume_mL == veq::test::close(10.008, 1e-9));
   CHECK(c.uncertainty_mL == veq::test::close(1.0 / std::sqrt(1.0 / 0.0004 + 1.0 / 0.0001), 1e-9));
   CHECK_FALSE(c.disagree);
-  g.before->volume_mL = 10.10;  // 0.10 apart, combined expanded uncertainty 2 x 0.022 = 0.045
-  CHECK(veq::signal::consensus(e, g).disagree);
+  // A Gran line 0.10 mL from a clean derivative estimate (beyond 2 x 0.022 combined) is left out.
+  g.before->volume_mL = 10.10;
+  const auto out = veq::signal::consensus(e, g);
+  CHECK(out.volume_mL == veq::test::close(10.00, 1e-12));
+  CHECK(out.left_out == std::vector<std::string>{"gran_before"});
+  CHECK_FALSE(out.disagree);
+  // Estimates that each agree with the reference but scatter 2.5 times their uncertainties
+  // among themselves (Birge ratio sqrt(12.5 / 2) = 2.5 > 2) flag the endpoint.
+  veq::signal::Endpoint e2;
+  e2.derivative_volume_mL = 10.00;
+  e2.derivative_uncertainty_mL = 0.01;
+  veq::signal::GranEndpoint g2;
+  g2.before = veq::signal::GranBranch{};
+  g2.before->volume_mL = 10.025;
+  g2.before->uncertainty_mL = 0.01;
+  g2.before->linear = true;
+  g2.after = g2.before;
+  g2.after->volume_mL = 9.975;
+  CHECK(veq::signal::consensus(e2, g2).disagree);
+  // A fitted estimate joins the same mean: (10.00/0.02^2 + 10.01/0.01^2 + 10.004/0.005^2) / (sum of weights).
+  g.before->volume_mL = 10.01;
+  const auto f = veq::signal::consensus(e, g, veq::signal::VolumeEstimate{10.004, 0.005});
+  const double w1 = 1 / 0.0004, w2 = 1 / 0.0001, w3 = 1 / 0.000025;
+  CHECK(f.volume_mL == veq::test::close((10.00 * w1 + 10.01 * w2 + 10.004 * w3) / (w1 + w2 + w3), 1e-9));
+  CHECK(f.methods == std::vector<std::string>{"derivative", "gran_before", "fit"});
 }
 
 TEST_CASE("Gran default options are pinned", "[options]") {

@@ -73,11 +73,20 @@ struct ResultSet {
   std::string method_path;
 };
 
-// Computes every result of the method for one analysed run. Throws
-// InputError (naming the method file, line and key, or the missing run fact)
-// when the method asks for something the run cannot give.
+// An endpoint's equivalence volume from the charge-balance fit.
+struct FittedVolume {
+  double volume_mL = 0.0;
+  double uncertainty_mL = 0.0;  // standard uncertainty [mL]
+};
+
+// Computes every result of the method for one analysed run. fitted holds,
+// per endpoint (same order), the fit's volume when the fit is usable and
+// matches it (empty: no usable fit). Throws InputError (naming the method
+// file, line and key, or the missing run fact) when the method asks for
+// something the run cannot give.
 [[nodiscard]] ResultSet compute_results(const Method& method, const Run& run, const Curve& curve,
                                         const std::vector<signal::Endpoint>& endpoints,
-                                        const std::vector<signal::GranEndpoint>& gran);
+                                        const std::vector<signal::GranEndpoint>& gran,
+                                        const std::vector<std::optional<FittedVolume>>& fitted = {});
 
 }  // namespace veq::method

@@ -46,6 +46,7 @@ struct Endpoint {
   double derivative_volume_mL = 0.0;       // mean of the two derivative estimates [mL]
   double derivative_uncertainty_mL = 0.0;  // its standard uncertainty [mL]
   std::vector<std::string> consensus_methods = {"derivative"};  // estimates combined into volume_mL
+  std::vector<std::string> consensus_left_out;                  // estimates left out (flagged or disagreeing)
   double value = 0.0;            // pH (or mV) at the endpoint [pH] or [mV]
   std::string value_method;      // "local_model" or "interpolated"
   std::optional<double> first_derivative_mL;   // vertex of the dy/dV peak [mL]

@@ -103,12 +103,25 @@ struct GranInputs {
 struct Consensus {
   double volume_mL = 0.0;
   double uncertainty_mL = 0.0;
-  std::vector<std::string> methods;  // the estimates that entered: "derivative", "gran_before", "gran_after"
-  bool disagree = false;             // two estimates differ by more than their combined expanded uncertainty
+  std::vector<std::string> methods;  // the estimates that entered: "derivative", "gran_before", "gran_after", "fit"
+  std::vector<std::string> left_out; // estimates left out: flagged, or disagreeing with the reference
+  bool disagree = false;             // the estimates kept scatter beyond twice their uncertainties
 };
 inline constexpr const char* kFlagMethodsDisagree = "methods_disagree";
 inline constexpr const char* kFlagGranNonlinear = "gran_nonlinear";
 
-[[nodiscard]] Consensus consensus(const Endpoint& derivative, const GranEndpoint& gran);
+// An estimate of an endpoint volume from outside the signal stage (the
+// charge-balance fit's equivalence volume).
+struct VolumeEstimate {
+  double volume_mL = 0.0;
+  double uncertainty_mL = 0.0;  // standard uncertainty [mL]
+};
+
+// The derivative estimate is taken from derivative.derivative_volume_mL
+// (with its uncertainty), so the consensus can be recomputed once a fit is
+// known; fitted joins the estimates when given.
+[[nodiscard]] Consensus consensus(const Endpoint& derivative,
+                                  const GranEndpoint& gran,
+                                  const std::optional<VolumeEstimate>& fitted = std::nullopt);
 
 }  // namespace veq::signal

@@ -1,0 +1,198 @@
+// SPDX-License-Identifier: MIT
+// The fit's cost function: warm Newton solves in double, Jets through the root for the chemical parameters.
+#include "fit/residual.hpp"
+
+#include <ceres/jet.h>
+
+#include <algorithm>
+#include <cmath>
+#include <optional>
+
+namespace veq::fit::detail {
+namespace {
+
+bool is_chemical(Role r) {
+  return r == Role::c_strong || r == Role::c || r == Role::c_second || r == Role::pKa || r == Role::titer ||
+         r == Role::carbonate;
+}
+
+// d pH / d u for the chemical parameters at every reading, in Jets of width N (>= their number): the
+// templated chemistry evaluated once at the converged (x0, L0) of each reading, and one Newton step in
+// the Jet type with the double Jacobian there (implicit function theorem).
+template <int N>
+void chemical_gradients(const Layout& layout,
+                        const double* u,
+                        const std::vector<int>& chemical,
+                        const Observations& obs,
+                        const WarmStates& warm,
+                        bool activity,
+                        std::vector<double>& grad) {
+  using J = ceres::Jet<double, N>;
+  std::array<J, kMaxFree> uj{};
+  for (int f = 0; f < layout.free_count; ++f) uj[static_cast<std::size_t>(f)] = J(u[f]);
+  for (std::size_t c = 0; c < chemical.size(); ++c)
+    uj[static_cast<std::size_t>(chemical[c])].v[static_cast<int>(c)] = 1.0;
+  const chem::Model<J> mt = layout.model(uj.data());
+  const std::size_t nc = chemical.size();
+  for (std::size_t i = 0; i < obs.volume_mL.size(); ++i) {
+    const chem::Equilibrium& st = warm.state[i];
+    const chem::detail::BalanceJacobian& jac = warm.jacobian[i];
+    const J x0(st.log10_h);
+    const J L0(st.log10_gamma1);
+    const chem::BalanceValue<J> b = chem::charge_balance(mt, J(obs.volume_mL[i]), x0, L0);
+    J x, L;
+    if (!activity) {
+      x = x0 - b.charge / jac.F_x;
+      L = J(0.0);
+    } else {
+      const J G = L0 + mt.davies_A * chem::davies_g(b.ionic_strength, mt.davies_b);
+      const double det = jac.F_x * jac.G_L - jac.F_L * jac.G_x;
+      x = x0 - (jac.G_L * b.charge - jac.F_L * G) / det;
+      L = L0 - (jac.F_x * G - jac.G_x * b.charge) / det;
+    }
+    const J pH = -(x + L);
+    for (std::size_t c = 0; c < nc; ++c) grad[i * nc + c] = pH.v[static_cast<int>(c)];
+  }
+}
+
+}  // namespace
+
+CurveCost::CurveCost(const Layout* layout,
+                     const Observations* obs,
+                     WarmStates* warm,
+                     const std::vector<double>* weights)
+    : m_layout(layout), m_obs(obs), m_warm(warm), m_weights(weights) {
+  set_num_residuals(static_cast<int>(obs->volume_mL.size()));
+  mutable_parameter_block_sizes()->push_back(layout->free_count);
+  for (const ParamDef& p : layout->params) {
+    if (p.index >= 0 && is_chemical(p.role)) m_chemical.push_back(p.index);
+  }
+  std::sort(m_chemical.begin(), m_chemical.end());
+}
+
+bool CurveCost::Evaluate(double const* const* parameters, double* residuals, double** jacobians) const {
+  try {
+    return evaluate(parameters[0], residuals, jacobians != nullptr ? jacobians[0] : nullptr, true);
+  } catch (...) {
+    return false;
+  }
+}
+
+bool CurveCost::residuals(const double* u, double* r) const {
+  try {
+    return evaluate(u, r, nullptr, false);
+  } catch (...) {
+    return false;
+  }
+}
+
+bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weighted) const {
+  const Layout& layout = *m_layout;
+  const int k = layout.free_count;
+  if (k < 1 || k > kMaxFree) return false;
+  for (int i = 0; i < k; ++i) {
+    if (!std::isfinite(u[i])) return false;
+  }
+  WarmStates& warm = *m_warm;
+  ++warm.evaluations;
+  if (jacobian != nullptr) ++warm.jacobian_evaluations;
+  const bool same = warm.valid && std::equal(u, u + k, warm.u.begin());
+  const chem::Model<double> md = layout.model(u);
+  const FastBalance fb(md);
+  std::optional<chem::detail::FastModel> bracketing;
+  const chem::SolveOptions solve_options;
+
+  const std::size_t n = m_obs->volume_mL.size();
+  if (!same) {
+    for (std::size_t i = 0; i < n; ++i) {
+      const double V = m_obs->volume_mL[i];
+      chem::Equilibrium& st = warm.state[i];
+      chem::detail::BalanceJacobian& jac = warm.jacobian[i];
+      ++warm.solves;
+      if (fb.newton(V, st, jac)) {
+        warm.newton_evaluations += st.root_evaluations;
+        continue;
+      }
+      if (!bracketing) bracketing = chem::detail::make_fast_model(md);
+      const chem::Equilibrium* start = st.converged ? &st : nullptr;
+      chem::Equilibrium s2 = chem::detail::solve_fast(*bracketing, V, start, solve_options, &jac);
+      if (!s2.converged) s2 = chem::detail::solve_fast(*bracketing, V, nullptr, solve_options, &jac);
+      if (!s2.converged) {
+        warm.valid = false;
+        return false;
+      }
+      st = s2;
+      ++warm.fallbacks;
+    }
+    std::copy(u, u + k, warm.u.begin());
+    warm.valid = true;
+  }
+
+  // The electrode: pH + offset, or E0 - slope x pH.
+  const ParamDef* offset = layout.find(Role::offset);
+  const ParamDef* e0 = layout.find(Role::e0);
+  const ParamDef* slope = layout.find(Role::slope);
+  const bool ph_signal = layout.signal == SignalKind::ph;
+  const double offset_v = offset != nullptr ? layout.value(*offset, u) : 0.0;
+  const double e0_v = e0 != nullptr ? layout.value(*e0, u) : 0.0;
+  const double slope_v = slope != nullptr ? layout.value(*slope, u) : 0.0;
+  const bool use_weights = weighted && m_weights != nullptr;
+  for (std::size_t i = 0; i < n; ++i) {
+    const double pH = warm.state[i].pH();
+    const double predicted = ph_signal ? pH + offset_v : e0_v - slope_v * pH;
+    const double sw = use_weights ? std::sqrt((*m_weights)[i]) : 1.0;
+    r[i] = sw * (m_obs->value[i] - predicted);
+    if (!std::isfinite(r[i])) return false;
+  }
+  if (jacobian == nullptr) return true;
+
+  std::fill(jacobian, jacobian + n * static_cast<std::size_t>(k), 0.0);
+  const std::size_t nc = m_chemical.size();
+  std::vector<double> grad(n * nc, 0.0);
+  if (nc > 0) {
+    const bool activity = fb.activity();
+    switch (padded_size(static_cast<int>(nc))) {
+      case 1:
+        chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 2:
+        chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 3:
+        chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 4:
+        chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 6:
+        chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 8:
+        chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      case 10:
+        chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        break;
+      default:
+        return false;
+    }
+  }
+  const double dpred_dpH = ph_signal ? 1.0 : -slope_v;
+  for (std::size_t i = 0; i < n; ++i) {
+    const double sw = use_weights ? std::sqrt((*m_weights)[i]) : 1.0;
+    double* row = jacobian + i * static_cast<std::size_t>(k);
+    for (std::size_t c = 0; c < nc; ++c) row[m_chemical[c]] = -sw * dpred_dpH * grad[i * nc + c];
+    if (ph_signal) {
+      if (offset != nullptr && offset->index >= 0) row[offset->index] = -sw * offset->scale;
+    } else {
+      if (e0 != nullptr && e0->index >= 0) row[e0->index] = -sw * e0->scale;
+      if (slope != nullptr && slope->index >= 0) row[slope->index] = sw * warm.state[i].pH() * slope->scale;
+    }
+    for (int f = 0; f < k; ++f) {
+      if (!std::isfinite(row[f])) return false;
+    }
+  }
+  return true;
+}
+
+}  // namespace veq::fit::detail

@@ -1,0 +1,89 @@
+// SPDX-License-Identifier: MIT
+// The residual cost function: every reading's measured minus predicted value through the charge balance.
+#pragma once
+
+#include <ceres/cost_function.h>
+
+#include <array>
+#include <vector>
+
+#include "fit/balance.hpp"
+#include "fit/layout.hpp"
+#include "veq/chem/equilibrium.hpp"
+
+namespace veq::fit::detail {
+
+// Most free parameters one model has (triprotic or tetraprotic analyte, mV
+// electrode, titer and carbonate).
+inline constexpr int kMaxFree = 10;
+
+// The readings a fit uses.
+struct Observations {
+  std::vector<double> volume_mL;
+  std::vector<double> value;  // pH or mV
+};
+
+// Per reading, the solved state for the last parameter set evaluated: the
+// warm start of the next evaluation (DEVELOPERS.md, "Charge-balance fit").
+struct WarmStates {
+  std::vector<chem::Equilibrium> state;
+  std::vector<chem::detail::BalanceJacobian> jacobian;
+  std::array<double, kMaxFree> u{};  // the scaled parameters they belong to
+  bool valid = false;
+  long evaluations = 0;  // calls (for the benchmark)
+  long jacobian_evaluations = 0;
+  long solves = 0;              // point solves
+  long newton_evaluations = 0;  // warm Newton iterations
+  long fallbacks = 0;           // bracketed solves after Newton failed
+};
+
+// Jet widths 5, 7 and 9 cost more than 6, 8 and 10 (Eigen vectorises the
+// even ones; measured for chem::charge_balance: 294 ns at 5, 220 ns at 6,
+// 307 ns at 7, 254 ns at 8): derivative directions are padded to even widths.
+[[nodiscard]] inline int padded_size(int k) {
+  return (k >= 5 && k % 2 == 1) ? k + 1 : k;
+}
+
+// Measured minus predicted reading at every observation, times the square
+// root of its weight (the robust loss enters through weights: iteratively
+// reweighted least squares, see fit.cpp). One parameter block: the model's
+// free parameters, scaled (Layout::value).
+//
+// The chemistry is solved in double by a warm Newton step (chem's bracketing
+// solver as the fallback). Derivatives with respect to the chemical
+// parameters (concentrations, pKa values, titer, carbonate) come from the
+// templated chemistry in Ceres Jets of exactly that many directions, through
+// the root by one Newton step in the Jet type (implicit function theorem), as
+// in chem::Titration::solve; the electrode enters the prediction linearly
+// (pH + offset, or E0 - slope x pH), so its columns are written directly:
+// d/d offset = d/d E0 = -1, d/d slope = pH (times the scale and the weight).
+// tests/fit checks the whole Jacobian against central differences.
+//
+// Never throws: a reading that cannot be solved makes the evaluation fail
+// (false), which Ceres treats as a rejected step. Not thread-safe (the warm
+// states are shared); the fitter runs one thread.
+class CurveCost final : public ceres::CostFunction {
+ public:
+  // weights: one per observation, or null for 1; the values may change
+  // between solves (they are read at every evaluation).
+  CurveCost(const Layout* layout,
+            const Observations* obs,
+            WarmStates* warm,
+            const std::vector<double>* weights = nullptr);
+
+  bool Evaluate(double const* const* parameters, double* residuals, double** jacobians) const override;
+
+  // The unweighted residuals at u (no Jacobian). Never throws.
+  bool residuals(const double* u, double* r) const;
+
+ private:
+  bool evaluate(const double* u, double* r, double* jacobian, bool weighted) const;
+
+  const Layout* m_layout;
+  const Observations* m_obs;
+  WarmStates* m_warm;
+  const std::vector<double>* m_weights;
+  std::vector<int> m_chemical;  // free indices of the chemical parameters
+};
+
+}  // namespace veq::fit::detail
