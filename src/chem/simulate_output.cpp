@@ -77,9 +77,11 @@ MetadataStyle metadata_style_from_name(std::string_view name, const std::string&
   if (name == "colon") return MetadataStyle::colon;
   if (name == "equals") return MetadataStyle::equals;
   if (name == "comma") return MetadataStyle::comma;
+  if (name == "separator") return MetadataStyle::separator;
   throw InputError({source, 0, 0},
                    "metadata style '" + std::string(name) + "' is not known",
-                   "use none, colon ('Key: value'), equals ('Key = value') or comma ('Key,value')");
+                   "use none, colon ('Key: value'), equals ('Key = value'), comma ('Key,value') or separator "
+                   "('Key;value' with the column separator)");
 }
 
 std::vector<std::string> OutputFormat::validate() const {
@@ -129,7 +131,9 @@ std::string format_run(const Simulation& sim, const OutputFormat& f) {
   if (f.metadata != MetadataStyle::none) {
     const std::string kv = f.metadata == MetadataStyle::colon    ? ": "
                            : f.metadata == MetadataStyle::equals ? " = "
-                                                                 : ",";
+                           : f.metadata == MetadataStyle::comma
+                               ? ","
+                               : (f.separator == ' ' ? "," : std::string(1, f.separator));
     auto line = [&](std::string_view key, const std::string& value) {
       out += key;
       out += kv;
@@ -139,7 +143,13 @@ std::string format_run(const Simulation& sim, const OutputFormat& f) {
     line("Sample", o.sample_id);
     line("Note", fmt::format("synthetic run written by veq simulate (seed {})", o.noise.seed));
     line("Sample volume", plain(o.sample.volume_mL, dec) + " mL");
-    line("Titrant", titrant_name(o.titrant) + " " + plain(o.titrant.conc_mol_L, dec) + " mol/L");
+    // A name that already states a concentration ("NaOH 0.1000 mol/L", the nominal one on the
+    // bottle) is written as given, so that the file can carry a nominal value beside a true one.
+    const std::string tname = titrant_name(o.titrant);
+    const bool states_conc = tname.find_first_of("0123456789") != std::string::npos &&
+                             (tname.find("mol/L") != std::string::npos || tname.find(" M") != std::string::npos ||
+                              tname.find(" N") != std::string::npos || tname.find("mol/l") != std::string::npos);
+    line("Titrant", states_conc ? tname : tname + " " + plain(o.titrant.conc_mol_L, dec) + " mol/L");
     line("Temperature",
          plain(o.model.temperature_C, dec) +
              " \xC2\xB0"

@@ -286,7 +286,8 @@ SimulationSpec parse_simulation_toml(std::string_view text, const std::string& s
                           {{"none", MetadataStyle::none},
                            {"colon", MetadataStyle::colon},
                            {"equals", MetadataStyle::equals},
-                           {"comma", MetadataStyle::comma}});
+                           {"comma", MetadataStyle::comma},
+                           {"separator", MetadataStyle::separator}});
     if (auto c = k.strings("columns")) out.columns = *c;
     out.crlf = choose(k, "line_ending", out.crlf, {{"lf", false}, {"crlf", true}});
     if (auto n = k.integer("volume_decimals")) out.volume_decimals = static_cast<int>(*n);

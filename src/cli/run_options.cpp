@@ -2,10 +2,10 @@
 // Shared run options: parsing and application.
 #include "cli/run_options.hpp"
 
+#include <fmt/format.h>
+
 #include <cmath>
 #include <cstdio>
-
-#include <fmt/format.h>
 
 #include "veq/core/constants.hpp"
 #include "veq/core/error.hpp"
@@ -14,16 +14,21 @@
 namespace veq::cli {
 
 void add_run_options(CLI::App* cmd, RunOptions& o) {
-  cmd->add_option("--method", o.method_file, "Method file (TOML): turns endpoints into reportable results")->group("Results");
+  cmd->add_option("--method", o.method_file, "Method file (TOML): turns endpoints into reportable results")
+      ->group("Results");
   const char* facts = "Run facts (win over the file's metadata)";
-  cmd->add_option("--sample-volume", o.sample_volume_mL, "Sample volume V0 [mL]")->group(facts)->check(CLI::PositiveNumber);
+  cmd->add_option("--sample-volume", o.sample_volume_mL, "Sample volume V0 [mL]")
+      ->group(facts)
+      ->check(CLI::PositiveNumber);
   cmd->add_option("--titrant-conc", o.titrant_conc_mol_L, "Titrant concentration Ct [mol/L]")
       ->group(facts)
       ->check(CLI::PositiveNumber);
   cmd->add_option("--titrant", o.titrant, "Titrant kind: base (pH rises) or acid (pH falls)")
       ->group(facts)
       ->check(CLI::IsMember({"acid", "base"}));
-  cmd->add_option("--temperature", o.temperature_C, "Temperature of the run [°C]")->group(facts)->check(CLI::Range(-5.0, 100.0));
+  cmd->add_option("--temperature", o.temperature_C, "Temperature of the run [°C]")
+      ->group(facts)
+      ->check(CLI::Range(-5.0, 100.0));
   const char* reading = "Reading the file";
   cmd->add_option("--columns", o.columns, "Column positions, 1-based: volume=N,signal=M[,temperature=K][,time=J]")
       ->group(reading);
@@ -46,30 +51,38 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
       ->group(endpoints);
   cmd->add_option("--min-height", o.min_height, "Smallest endpoint peak as a fraction of the highest (default 0.05)")
       ->group(endpoints);
-  cmd->add_option("--min-separation", o.min_separation_mL, "Smallest distance between endpoints [mL] (default: 3 dosing steps)")
+  cmd->add_option(
+         "--min-separation", o.min_separation_mL, "Smallest distance between endpoints [mL] (default: 3 dosing steps)")
       ->group(endpoints);
-  cmd->add_option("--analyte-charge", o.analyte_charge,
+  cmd->add_option("--analyte-charge",
+                  o.analyte_charge,
                   "Charge of the analyte titrated (0: HA or B, -1: hydrogen phthalate, -2: carbonate); "
                   "lets Gran correct for activity")
       ->group(endpoints)
       ->check(CLI::Range(-4, 4));
-  cmd->add_option("--gran-window", o.gran_window, "Fit the Gran line only to readings in FROM:TO mL (default: chosen by the linearity rule)")
+  cmd->add_option("--gran-window",
+                  o.gran_window,
+                  "Fit the Gran line only to readings in FROM:TO mL (default: chosen by the linearity rule)")
       ->group(endpoints);
   cmd->add_option("--drop-volume", o.drop_volume_mL, "Volume of one drop from the burette [mL] (default 0.05)")
       ->group("Indicators")
       ->check(CLI::Range(0.001, 1.0));
   const char* fit = "Charge-balance fit (needs the sample volume and titrant concentration)";
   cmd->add_flag("--no-fit", o.no_fit, "Do not fit the curve")->group(fit);
-  cmd->add_option("--model", o.model,
+  cmd->add_option("--model",
+                  o.model,
                   "Fit this model only: strong_acid, weak_acid, diprotic_acid, triprotic_acid, strong_weak_acid, "
-                  "strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, carbonate_bicarbonate, "
+                  "acid_salt, strong_base, weak_base, carbonate_base, strong_weak_base, hydroxide_carbonate, "
+                  "carbonate_bicarbonate, "
                   "or a substance of the analyte table (e.g. KHP) (default: chosen by BIC)")
       ->group(fit);
-  cmd->add_flag("--fit-titer", o.fit_titer,
+  cmd->add_flag("--fit-titer",
+                o.fit_titer,
                 "Fit the titrant factor (needs a standardisation method giving the standard's mass and molar mass)")
       ->group(fit);
   cmd->add_flag("--fit-carbonate", o.fit_carbonate, "Fit the carbonate fraction of a base titrant")->group(fit);
-  cmd->add_flag("--fix-electrode", o.fix_electrode,
+  cmd->add_flag("--fix-electrode",
+                o.fix_electrode,
                 "Hold the electrode: offset 0 (pH), or Nernst slope and the best starting E0 (mV)")
       ->group(fit);
   cmd->add_option("--fit-hold", o.fit_hold, "Hold a parameter at a value, NAME=VALUE (e.g. pKa1=2.95); repeatable")
@@ -84,7 +97,8 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
       ->group(fit)
       ->check(CLI::IsMember({"aicc", "bic"}));
   cmd->add_flag("--fit-ideal", o.fit_ideal, "Fit with activity coefficients 1 (default: Davies)")->group(fit);
-  cmd->add_option("--ionic-strength", o.ionic_strength_mol_L, "Background electrolyte of the sample, as ionic strength [mol/L]")
+  cmd->add_option(
+         "--ionic-strength", o.ionic_strength_mol_L, "Background electrolyte of the sample, as ionic strength [mol/L]")
       ->group(fit)
       ->check(CLI::Range(0.0, 5.0));
 }
@@ -108,7 +122,8 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
     std::string rest;
     if (std::sscanf(o.buffers.c_str(), "%lf%c%lf%c%lf%c%lf", &p1, &c1, &e1, &c2, &p2, &c3, &e2) != 7 || c1 != ':' ||
         c2 != ',' || c3 != ':') {
-      throw InputError({"--buffers", 0, 0}, "'" + o.buffers + "' is not of the form pH1:E1,pH2:E2",
+      throw InputError({"--buffers", 0, 0},
+                       "'" + o.buffers + "' is not of the form pH1:E1,pH2:E2",
                        "e.g. --buffers 4.01:171.5,7.00:-2.3");
     }
     ao.prepare.electrode = signal::calibration_from_buffers(p1, e1, p2, e2, temperature_C);
@@ -129,8 +144,10 @@ AnalyzeOptions analyze_options(const RunOptions& o, double temperature_C) {
   if (!o.gran_window.empty()) {
     double from = 0, to = 0;
     char colon = 0, extra = 0;
-    if (std::sscanf(o.gran_window.c_str(), "%lf%c%lf%c", &from, &colon, &to, &extra) != 3 || colon != ':' || !(to > from)) {
-      throw InputError({"--gran-window", 0, 0}, "'" + o.gran_window + "' is not of the form FROM:TO (mL, FROM < TO)",
+    if (std::sscanf(o.gran_window.c_str(), "%lf%c%lf%c", &from, &colon, &to, &extra) != 3 || colon != ':' ||
+        !(to > from)) {
+      throw InputError({"--gran-window", 0, 0},
+                       "'" + o.gran_window + "' is not of the form FROM:TO (mL, FROM < TO)",
                        "e.g. --gran-window 5.0:9.5");
     }
     ao.gran.window_mL = std::make_pair(from, to);
@@ -193,11 +210,35 @@ std::string fingerprint(const RunOptions& o) {
       "max_size={:.17g};e0={};slope={};buffers={};window={};min_height={};min_separation={};gran_window={};"
       "analyte_charge={};drop_volume={};no_fit={};model={};fit_titer={};fit_carbonate={};fix_electrode={};"
       "fit_hold={};fit_loss={};fit_loss_scale={};fit_criterion={};fit_ideal={};ionic_strength={}",
-      num(o.sample_volume_mL), num(o.titrant_conc_mol_L), o.titrant, num(o.temperature_C), o.columns, o.volume_unit,
-      o.signal, o.sort, o.max_size_MiB, num(o.e0_mV), num(o.slope_mV), o.buffers, o.window, num(o.min_height),
-      num(o.min_separation_mL), o.gran_window, o.analyte_charge ? std::to_string(*o.analyte_charge) : std::string("-"),
-      num(o.drop_volume_mL), o.no_fit, o.model, o.fit_titer, o.fit_carbonate, o.fix_electrode, holds, o.fit_loss,
-      num(o.fit_loss_scale), o.fit_criterion, o.fit_ideal, num(o.ionic_strength_mol_L));
+      num(o.sample_volume_mL),
+      num(o.titrant_conc_mol_L),
+      o.titrant,
+      num(o.temperature_C),
+      o.columns,
+      o.volume_unit,
+      o.signal,
+      o.sort,
+      o.max_size_MiB,
+      num(o.e0_mV),
+      num(o.slope_mV),
+      o.buffers,
+      o.window,
+      num(o.min_height),
+      num(o.min_separation_mL),
+      o.gran_window,
+      o.analyte_charge ? std::to_string(*o.analyte_charge) : std::string("-"),
+      num(o.drop_volume_mL),
+      o.no_fit,
+      o.model,
+      o.fit_titer,
+      o.fit_carbonate,
+      o.fix_electrode,
+      holds,
+      o.fit_loss,
+      num(o.fit_loss_scale),
+      o.fit_criterion,
+      o.fit_ideal,
+      num(o.ionic_strength_mol_L));
 }
 
 // Any new field of RunOptions must be added to fingerprint() above: a batch resumed after a changed

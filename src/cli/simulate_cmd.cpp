@@ -236,7 +236,9 @@ void add_simulate(CLI::App& app, Action& action) {
   cmd->add_option(
          "--carbonate", a.carbonate_fraction, "Fraction of a base titrant's hydroxide turned to carbonate (0-1)")
       ->group(titrant);
-  cmd->add_option("--titrant-name", a.titrant_name, "Titrant name in the metadata (default NaOH or HCl)")
+  cmd->add_option("--titrant-name",
+                  a.titrant_name,
+                  "Titrant name in the metadata (default NaOH or HCl); written as given when it states a concentration")
       ->group(titrant);
   cmd->add_option("--temperature", a.temperature_C, "Temperature [°C] (default 25)")->group(titrant);
   cmd->add_flag("--ideal", a.ideal, "Ideal solution: no activity correction (default: Davies equation)")
@@ -278,7 +280,10 @@ void add_simulate(CLI::App& app, Action& action) {
   cmd->add_option("--volume-unit", a.volume_unit, "Unit of the volume column: mL (default), uL or L")
       ->group(dialect)
       ->check(CLI::IsMember({"mL", "uL", "L"}));
-  cmd->add_option("--metadata", a.metadata, "Metadata block: colon (default), equals, comma or none")->group(dialect);
+  cmd->add_option("--metadata",
+                  a.metadata,
+                  "Metadata block: colon (default), equals, comma, separator (the column separator) or none")
+      ->group(dialect);
   cmd->add_option("--column-order", a.column_order, "Columns in order, e.g. time,volume,signal,temperature")
       ->group(dialect);
   cmd->add_flag("--crlf", a.crlf, "CRLF line ends (default LF)")->group(dialect);

@@ -37,6 +37,7 @@ constexpr KindName kKindNames[] = {
     {ModelKind::diprotic_acid, "diprotic_acid"},
     {ModelKind::triprotic_acid, "triprotic_acid"},
     {ModelKind::strong_weak_acid, "strong_weak_acid"},
+    {ModelKind::acid_salt, "acid_salt"},
     {ModelKind::strong_base, "strong_base"},
     {ModelKind::weak_base, "weak_base"},
     {ModelKind::carbonate_base, "carbonate_base"},
@@ -179,6 +180,10 @@ ModelShape shape_of(ModelKind kind) {
       s.strong = true;
       s.weak_steps = 1;
       break;
+    case ModelKind::acid_salt:
+      s.weak_steps = 2;
+      s.added_form = 1;
+      break;
     case ModelKind::weak_base:
       s.weak_steps = 1;
       s.top_charge = 1;
@@ -224,7 +229,7 @@ using detail::WarmStates;
 // Titrated with a base: acid kinds; with an acid: base kinds.
 bool is_acid_kind(ModelKind k) {
   return k == ModelKind::strong_acid || k == ModelKind::weak_acid || k == ModelKind::diprotic_acid ||
-         k == ModelKind::triprotic_acid || k == ModelKind::strong_weak_acid;
+         k == ModelKind::triprotic_acid || k == ModelKind::strong_weak_acid || k == ModelKind::acid_salt;
 }
 
 // The weak steps a titrant of that kind converts, as 0-based pKa indices in the order they are titrated.
@@ -307,9 +312,10 @@ double cum_end(const ModelShape& s, const std::vector<int>& steps, const Start& 
 // Placeholder pKa values of a shape (the E0 guess of a mV run needs some).
 double default_pKa(const ModelShape& s, int j) {
   if (j < static_cast<int>(s.table_pKa.size())) return s.table_pKa[static_cast<std::size_t>(j)];
-  if (s.added_form == 0) return 3.0 + 3.0 * j;  // acids
-  if (s.weak_steps == 1) return 9.25;           // an ammonia-like base
-  return j == 0 ? 6.35 : 10.33;                 // carbonate-like
+  if (s.added_form == 0) return 3.0 + 3.0 * j;                    // acids
+  if (s.kind == ModelKind::acid_salt) return j == 0 ? 3.0 : 5.5;  // phthalate-like
+  if (s.weak_steps == 1) return 9.25;                             // an ammonia-like base
+  return j == 0 ? 6.35 : 10.33;                                   // carbonate-like
 }
 
 ParamDef param(std::string name,
@@ -916,7 +922,11 @@ std::vector<ModelShape> candidates(const Prepared& p, const FitOptions& o) {
   std::vector<ModelKind> kinds;
   if (p.base_titrant) {
     if (m == 1)
-      kinds = {ModelKind::strong_acid, ModelKind::weak_acid, ModelKind::diprotic_acid, ModelKind::triprotic_acid};
+      kinds = {ModelKind::strong_acid,
+               ModelKind::weak_acid,
+               ModelKind::acid_salt,
+               ModelKind::diprotic_acid,
+               ModelKind::triprotic_acid};
     else if (m == 2)
       kinds = {ModelKind::diprotic_acid, ModelKind::strong_weak_acid, ModelKind::triprotic_acid, ModelKind::weak_acid};
     else
@@ -947,7 +957,8 @@ std::vector<double> start_volumes(const ModelShape& s, const std::vector<int>& s
 
 // Starts worth trying for a shape. Every way of assigning endpoints to the model's equivalence points
 // (V_strong = E_i, V_weak = E_i / k or E_j - E_i) is scored by the signal-to-noise ratios of the endpoints
-// it explains (within 4 %); the best is tried, and a tie too (one endpoint may be a first or a second step).
+// it explains (within 4 %); the best is tried, and up to two ties (one endpoint may be a first, a last or a
+// middle step).
 std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
   const auto& E = p.endpoint_mL;
   const int nt = static_cast<int>(titrated_steps(s, p.base_titrant).size());
@@ -976,8 +987,12 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
     }
     for (double e : E) cand.push_back({0.0, 0.5 * e, 0.02 * e});
   } else if (!s.strong) {
+    // An endpoint is most often the first step (well-separated pKa values) or the last (close ones,
+    // as citric acid's, where only the last jump shows): those two first, the steps between after.
     for (double e : E) {
-      for (int k = 1; k <= nt; ++k) cand.push_back({0.0, e / k});
+      cand.push_back({0.0, e});
+      if (nt > 1) cand.push_back({0.0, e / nt});
+      for (int k = 2; k < nt; ++k) cand.push_back({0.0, e / k});
     }
   } else {
     for (std::size_t i = 0; i < m; ++i) {
@@ -1012,7 +1027,7 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
   std::stable_sort(scored.begin(), scored.end(), [](const auto& x, const auto& y) { return x.first > y.first; });
   std::vector<Start> out;
   for (const auto& [score, st] : scored) {
-    if (out.size() == 2 || score < 0.999 * scored.front().first) break;
+    if (out.size() == 3 || score < 0.999 * scored.front().first) break;
     const bool same = std::any_of(out.begin(), out.end(), [&](const Start& o) {
       return std::fabs(o.V_strong - st.V_strong) <= 0.05 * std::max(o.V_strong, 1e-9) &&
              std::fabs(o.V_weak - st.V_weak) <= 0.05 * std::max(o.V_weak, 1e-9) &&
@@ -1064,6 +1079,8 @@ FitSummary summarise(
   if (!std::isfinite(s.score)) s.score = 0.0;
   s.residuals = r;
   s.residual_volumes_mL = p.obs.volume_mL;
+  s.model_values.resize(r.size());
+  for (std::size_t i = 0; i < r.size(); ++i) s.model_values[i] = p.obs.value[i] - r[i];
 
   // M-estimate scale (Huber 1981, §7.6; from memory): s^2 = K^2 [sum psi^2 / (n - p)] / [mean psi']^2,
   // K = 1 + (p/n) var(psi') / mean(psi')^2. Equals RSS / (n - p) for least squares.

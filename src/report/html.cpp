@@ -55,12 +55,13 @@ std::string html_escape(std::string_view text) {
 namespace {
 
 // Palette (ours): readings dark blue, endpoints brick red, derivatives green
-// and purple, windows grey.
+// and purple, windows grey, the fitted model orange.
 constexpr std::string_view kInk = "#1d4f7a";
 constexpr std::string_view kEndpoint = "#b0392b";
 constexpr std::string_view kFirst = "#2e7d32";
 constexpr std::string_view kSecond = "#6a3d9a";
 constexpr std::string_view kWindow = "#7f7f7f";
+constexpr std::string_view kFit = "#d9822b";
 
 std::string esc(std::string_view s) {
   return html_escape(s);
@@ -222,14 +223,23 @@ std::string section_method_results(const Analysis& a) {
     std::string spec;
     if (r.spec_low) spec += fmt::format("&#8805; {:.{}f}", *r.spec_low, r.decimals);
     if (r.spec_high) spec += fmt::format("{}&#8804; {:.{}f}", spec.empty() ? "" : ", ", *r.spec_high, r.decimals);
-    const std::string from = r.at_pH ? fmt::format("volume at pH {:g}: {:.3f} mL", *r.at_pH, r.endpoint_volume_mL)
-                                     : fmt::format("endpoint {} ({}): {:.4f} mL", r.endpoint_index,
-                                                   esc(r.volume_source), r.endpoint_volume_mL);
-    s += fmt::format("<tr><td>{}</td><td class=\"num\"><strong>{:.{}f}</strong></td><td class=\"num\">{:.{}f}</td>"
-                     "<td>{}</td><td>{}</td><td class=\"verdict-{}\">{}</td><td>{}</td></tr>\n",
-                     esc(r.name), r.value, r.decimals, r.expanded_uncertainty, r.decimals,
-                     esc(method::to_string(r.unit)), spec.empty() ? std::string("&#8212;") : spec,
-                     esc(r.verdict.empty() ? "none" : r.verdict), esc(r.verdict.empty() ? "no limits" : r.verdict), from);
+    const std::string from =
+        r.at_pH
+            ? fmt::format("volume at pH {:g}: {:.3f} mL", *r.at_pH, r.endpoint_volume_mL)
+            : fmt::format("endpoint {} ({}): {:.4f} mL", r.endpoint_index, esc(r.volume_source), r.endpoint_volume_mL);
+    s += fmt::format(
+        "<tr><td>{}</td><td class=\"num\"><strong>{:.{}f}</strong></td><td class=\"num\">{:.{}f}</td>"
+        "<td>{}</td><td>{}</td><td class=\"verdict-{}\">{}</td><td>{}</td></tr>\n",
+        esc(r.name),
+        r.value,
+        r.decimals,
+        r.expanded_uncertainty,
+        r.decimals,
+        esc(method::to_string(r.unit)),
+        spec.empty() ? std::string("&#8212;") : spec,
+        esc(r.verdict.empty() ? "none" : r.verdict),
+        esc(r.verdict.empty() ? "no limits" : r.verdict),
+        from);
   }
   s += "</tbody>\n</table>\n";
   for (const auto& r : rs.results) {
@@ -238,13 +248,20 @@ std::string section_method_results(const Analysis& a) {
     s += "<table class=\"budget\">\n<thead><tr><th>Input</th><th>Value</th><th>Standard uncertainty</th>"
          "<th>Contribution</th><th>Share of u&#178;</th></tr></thead>\n<tbody>\n";
     for (const auto& b : r.budget) {
-      s += fmt::format("<tr><td>{}</td><td class=\"num\">{:.6g} {}</td><td class=\"num\">{:.3g}</td>"
-                       "<td class=\"num\">{:.3g}</td><td class=\"num\">{:.1f} %</td></tr>\n",
-                       esc(b.name), b.value, esc(b.unit), b.std_uncertainty, b.contribution, b.percent);
+      s += fmt::format(
+          "<tr><td>{}</td><td class=\"num\">{:.6g} {}</td><td class=\"num\">{:.3g}</td>"
+          "<td class=\"num\">{:.3g}</td><td class=\"num\">{:.1f} %</td></tr>\n",
+          esc(b.name),
+          b.value,
+          esc(b.unit),
+          b.std_uncertainty,
+          b.contribution,
+          b.percent);
     }
-    s += fmt::format("<tr><td><strong>combined</strong></td><td></td><td></td><td class=\"num\"><strong>{:.3g}</strong>"
-                     "</td><td class=\"num\">100 %</td></tr>\n</tbody>\n</table>\n",
-                     r.uncertainty);
+    s += fmt::format(
+        "<tr><td><strong>combined</strong></td><td></td><td></td><td class=\"num\"><strong>{:.3g}</strong>"
+        "</td><td class=\"num\">100 %</td></tr>\n</tbody>\n</table>\n",
+        r.uncertainty);
     for (const auto& n : r.notes) s += "<p class=\"note\">Note: " + esc(n) + "</p>\n";
   }
   for (const auto& c : rs.conflicts) s += "<p class=\"warn\">Check: " + esc(c) + "</p>\n";
@@ -252,9 +269,12 @@ std::string section_method_results(const Analysis& a) {
   if (rs.titer) {
     const auto& t = *rs.titer;
     s += fmt::format("<p>Titrant {}: <strong>{:.6g} mol/L</strong>, standard uncertainty {:.2g} mol/L{}.</p>\n",
-                     esc(t.titrant), t.concentration_mol_L, t.uncertainty_mol_L,
+                     esc(t.titrant),
+                     t.concentration_mol_L,
+                     t.uncertainty_mol_L,
                      t.nominal_mol_L > 0 ? fmt::format(" (titer {:.4f} of the nominal {:g})",
-                                                       t.concentration_mol_L / t.nominal_mol_L, t.nominal_mol_L)
+                                                       t.concentration_mol_L / t.nominal_mol_L,
+                                                       t.nominal_mol_L)
                                          : std::string());
   }
   return s + "</section>\n";
@@ -268,13 +288,16 @@ std::string section_indicators(const Analysis& a) {
   std::string s = "<section id=\"indicators\">\n<h2>Colour indicators</h2>\n";
   s += "<p class=\"note\">For a manual titration of the same sample: where each indicator's colour change is "
        "first seen, its indicator error against the endpoint, and how many drops the whole change spans (judged "
-       "on the " + esc(a.indicators.curve_method) + " curve).</p>\n";
+       "on the " +
+       esc(a.indicators.curve_method) + " curve).</p>\n";
   auto swatch = [](const indicators::Colour& c) {
     return fmt::format("<span class=\"swatch\" style=\"background:{}\"></span>{}", esc(c.srgb_hex), esc(c.name));
   };
   for (const auto& e : a.indicators.endpoints) {
     if (e.candidates.empty()) continue;
-    s += fmt::format("<h3>Endpoint {} at {:.3f} mL{}</h3>\n", e.endpoint_index, e.equivalence_mL,
+    s += fmt::format("<h3>Endpoint {} at {:.3f} mL{}</h3>\n",
+                     e.endpoint_index,
+                     e.equivalence_mL,
                      e.endpoint_pH ? fmt::format(", pH {:.2f}", *e.endpoint_pH) : std::string());
     s += "<table class=\"indicators\">\n<thead><tr><th>Indicator</th><th>Range (pH)</th><th>Colours</th>"
          "<th>Seen at</th><th>Error</th><th>Change spans</th><th>Verdict</th><th>Note</th></tr></thead>\n<tbody>\n";
@@ -283,11 +306,17 @@ std::string section_indicators(const Analysis& a) {
       s += fmt::format(
           "<tr><td>{}</td><td class=\"num\">{:.1f}&#8211;{:.1f}</td><td>{} &#8594; {}</td><td class=\"num\">{}</td>"
           "<td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td><td>{}</td></tr>\n",
-          esc(ind.name), ind.low_pH, ind.high_pH, swatch(ind.acid_colour), swatch(ind.base_colour),
+          esc(ind.name),
+          ind.low_pH,
+          ind.high_pH,
+          swatch(ind.acid_colour),
+          swatch(ind.base_colour),
           c.seen_mL ? fmt::format("{:.3f} mL (pH {:.1f})", *c.seen_mL, c.transition.seen_pH) : std::string("&#8212;"),
           c.error_percent ? fmt::format("{:+.2f} %", *c.error_percent) : std::string("&#8212;"),
-          c.span_mL ? fmt::format("{:.3f} mL ({:.1f} drops)", *c.span_mL, c.span_drops.value_or(0.0)) : std::string("&#8212;"),
-          esc(indicators::to_string(c.verdict)), esc(c.note));
+          c.span_mL ? fmt::format("{:.3f} mL ({:.1f} drops)", *c.span_mL, c.span_drops.value_or(0.0))
+                    : std::string("&#8212;"),
+          esc(indicators::to_string(c.verdict)),
+          esc(c.note));
     }
     s += "</tbody>\n</table>\n";
     if (!e.also_suitable.empty()) {
@@ -332,6 +361,20 @@ void mark_endpoints(svg::Plot& plot, const Analysis& a, double label_y) {
   }
 }
 
+// The fitted model's signal at the readings it was fitted to, when a fit produced one.
+svg::Points model_points(const Analysis& a) {
+  svg::Points p;
+  if (!a.fit.best || a.fit.best->status == fit::FitStatus::failed || a.fit.best->status == fit::FitStatus::not_run)
+    return p;
+  const fit::FitSummary& b = *a.fit.best;
+  const std::size_t n = std::min(b.residual_volumes_mL.size(), b.model_values.size());
+  for (std::size_t i = 0; i < n; ++i) {
+    if (std::isfinite(b.residual_volumes_mL[i]) && std::isfinite(b.model_values[i]))
+      p.emplace_back(b.residual_volumes_mL[i], b.model_values[i]);
+  }
+  return p;
+}
+
 std::string section_curve(const Analysis& a, const HtmlOptions& o) {
   const Curve& c = a.curve;
   const svg::Points pts = curve_points(c, false);
@@ -350,10 +393,12 @@ std::string section_curve(const Analysis& a, const HtmlOptions& o) {
       if (cc.verdict == indicators::Verdict::unsuitable) continue;
       if (std::find(banded.begin(), banded.end(), cc.indicator.name) != banded.end()) continue;
       banded.push_back(cc.indicator.name);
-      const auto& col = cc.indicator.base_colour.name == "colourless" ? cc.indicator.acid_colour : cc.indicator.base_colour;
+      const auto& col =
+          cc.indicator.base_colour.name == "colourless" ? cc.indicator.acid_colour : cc.indicator.base_colour;
       plot.y_band(cc.indicator.low_pH, cc.indicator.high_pH, svg::fill(col.srgb_hex, 0.16));
-      plot.legend(cc.indicator.name + " (" + fmt::format("{:.1f}-{:.1f}", cc.indicator.low_pH, cc.indicator.high_pH) + ")",
-                  svg::fill(col.srgb_hex, 0.5));
+      plot.legend(
+          cc.indicator.name + " (" + fmt::format("{:.1f}-{:.1f}", cc.indicator.low_pH, cc.indicator.high_pH) + ")",
+          svg::fill(col.srgb_hex, 0.5));
       if (banded.size() >= 2) break;
     }
   }
@@ -361,7 +406,10 @@ std::string section_curve(const Analysis& a, const HtmlOptions& o) {
   plot.polyline(pts, svg::stroke(kInk, 1.2, {}, 0.6));
   plot.dots(pts, 1.8, svg::fill(kInk));
   if (!spikes.empty()) plot.dots(spikes, 3.0, svg::stroke(kEndpoint, 1.2));
+  const svg::Points model = model_points(a);
+  if (model.size() >= 2) plot.polyline(model, svg::stroke(kFit, 1.8));
   plot.legend("readings", svg::fill(kInk));
+  if (model.size() >= 2) plot.legend("fitted model", svg::stroke(kFit));
   if (!spikes.empty()) plot.legend("spikes (not used)", svg::stroke(kEndpoint));
   if (!a.endpoints.endpoints.empty()) plot.legend("endpoint \xC2\xB1 u", svg::fill(kEndpoint, 0.5));
   std::string cap = fmt::format("Titration curve: {} readings", c.volume_mL.size());
@@ -369,8 +417,119 @@ std::string section_curve(const Analysis& a, const HtmlOptions& o) {
     cap += fmt::format(", {} isolated spike(s) circled and left out of endpoint detection", spikes.size());
   cap += ". Shaded: each endpoint &#177; its standard uncertainty";
   if (!banded.empty()) cap += "; horizontal bands: the transition ranges of suitable colour indicators";
+  if (model.size() >= 2) cap += "; orange line: the fitted charge-balance model";
   cap += ".";
   return "<section id=\"curve\">\n<h2>Titration curve</h2>\n" + figure(plot.finish(), cap) + "</section>\n";
+}
+
+const char* fit_flag_meaning(std::string_view flag) {
+  if (flag == fit::kFlagNotConverged) return "the solver stopped before it converged; the values are its last iterate";
+  if (flag == fit::kFlagAtBound) return "a fitted parameter ended on the edge of its allowed range";
+  if (flag == fit::kFlagCovarianceFailed)
+    return "the parameters could not all be told apart from these readings: no uncertainties";
+  if (flag == fit::kFlagResidualPattern)
+    return "the residuals run in long same-sign stretches: the model misses a shape of the curve";
+  if (flag == fit::kFlagPoorFit) return "the residuals are well above the reading noise";
+  if (flag == fit::kFlagAmbiguous) return "the runner-up model scores almost as well: the chemistry is not settled";
+  if (flag == fit::kFlagSkipped) return "not run: the sample volume or titrant concentration is missing";
+  if (flag == fit::kFlagFailed) return "no candidate model could be fitted";
+  return "see the documentation";
+}
+
+int fit_decimals(const std::optional<double>& se, double value) {
+  if (se && *se > 0.0 && std::isfinite(*se))
+    return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
+  if (value != 0.0 && std::isfinite(value))
+    return std::clamp(4 - static_cast<int>(std::floor(std::log10(std::fabs(value)))), 0, 10);
+  return 4;
+}
+
+// The charge-balance fit: what was fitted, the parameters with their
+// intervals, the fitted equivalence volumes and the residual plot.
+std::string section_fit(const Analysis& a, const HtmlOptions& o) {
+  const fit::FitResult& r = a.fit;
+  std::string s = "<section id=\"fit\">\n<h2>Fitted model (charge balance)</h2>\n";
+  if (!r.best) {
+    std::string why = r.message.empty() ? std::string("not run") : r.message;
+    return s + "<p class=\"none\">No fit: " + esc(why) + ".</p>\n</section>\n";
+  }
+  const fit::FitSummary& b = *r.best;
+  const char* unit = b.signal == SignalKind::ph ? "pH" : "mV";
+  s += fmt::format(
+      "<p>Model <strong>{}</strong>, {} readings, {} free parameters, residual SD {:.2g} {}, {} iterations, {}",
+      esc(b.model),
+      b.points,
+      b.free_parameters,
+      b.residual_sd,
+      unit,
+      b.iterations,
+      esc(fit::to_string(b.status)));
+  if (r.runner_up) {
+    s += fmt::format("; runner-up {} ({} {:+.1f})",
+                     esc(r.runner_up->model),
+                     esc(fit::to_string(r.criterion)),
+                     r.runner_up->score - b.score);
+  }
+  s += r.usable() ? ". Used beside the endpoints.</p>\n"
+                  : ". <strong>Not used</strong> beside the endpoints (see the flags).</p>\n";
+  s += "<table class=\"results\">\n<thead><tr><th>Parameter</th><th>Value</th><th>Standard error</th>"
+       "<th>95 % interval</th><th>Unit</th></tr></thead>\n<tbody>\n";
+  for (const auto& p : b.parameters) {
+    const int d = fit_decimals(p.std_error, p.value);
+    std::string se = p.fixed ? "held" : (p.std_error ? fmt::format("{:.{}f}", *p.std_error, d) : "&#8211;");
+    std::string ci =
+        (p.ci95_low && p.ci95_high) ? fmt::format("{:.{}f} to {:.{}f}", *p.ci95_low, d, *p.ci95_high, d) : "&#8211;";
+    s += fmt::format("<tr><td>{}</td><td>{:.{}f}</td><td>{}</td><td>{}</td><td>{}</td></tr>\n",
+                     esc(p.name),
+                     p.value,
+                     d,
+                     se,
+                     ci,
+                     esc(p.unit));
+  }
+  for (const auto& fe : b.equivalence) {
+    const int d = fe.uncertainty_mL ? decimals_for(*fe.uncertainty_mL) : 3;
+    s += fmt::format("<tr><td>equivalence volume{}</td><td>{:.{}f}</td><td>{}</td><td>&#8211;</td><td>mL</td></tr>\n",
+                     fe.endpoint_index > 0 ? fmt::format(" (EP{})", fe.endpoint_index)
+                                           : std::string(fe.in_range ? "" : " (beyond the readings)"),
+                     fe.volume_mL,
+                     d,
+                     fe.uncertainty_mL ? fmt::format("{:.{}f}", *fe.uncertainty_mL, d) : "&#8211;");
+  }
+  s += "</tbody>\n</table>\n";
+  std::vector<std::string> flags = b.flags;
+  for (const auto& f : r.flags) flags.push_back(f);
+  if (!flags.empty()) {
+    s += "<dl>\n";
+    for (const auto& f : flags) s += fmt::format("<dt>{}</dt><dd>{}</dd>\n", badge(f), esc(fit_flag_meaning(f)));
+    s += "</dl>\n";
+  }
+  const std::size_t n = std::min(b.residuals.size(), b.residual_volumes_mL.size());
+  if (n >= 2 && b.status != fit::FitStatus::failed) {
+    svg::Points p;
+    for (std::size_t i = 0; i < n; ++i) {
+      if (std::isfinite(b.residual_volumes_mL[i]) && std::isfinite(b.residuals[i]))
+        p.emplace_back(b.residual_volumes_mL[i], b.residuals[i]);
+    }
+    const auto [x0, x1] = range_of(p, false);
+    auto [y0, y1] = range_of(p, true);
+    const double m = std::max({std::fabs(y0), std::fabs(y1), 2.0 * b.residual_sd, 1e-6});
+    svg::Plot plot("residuals", "Residuals of the fit", o.plot_width_px, 0.45 * o.plot_height_px);
+    plot.x_axis(x0, x1, "Titrant added [mL]");
+    plot.y_axis(-m, m, std::string("measured - model [") + unit + "]");
+    mark_endpoints(plot, a, m);
+    if (b.residual_sd > 0.0) plot.y_band(-2.0 * b.residual_sd, 2.0 * b.residual_sd, svg::fill(kWindow, 0.12));
+    plot.hline(0.0, svg::stroke("#999", 1));
+    plot.dots(p, 1.8, svg::fill(kFit));
+    plot.legend("residual", svg::fill(kFit));
+    plot.legend("\xC2\xB1 2 residual SD", svg::fill(kWindow, 0.4));
+    s += figure(plot.finish(),
+                fmt::format("Residuals (measured minus fitted model) in volume order; runs test z = {:.2f}, "
+                            "Durbin&#8211;Watson {:.2f}. A model that describes the data leaves a patternless band.",
+                            b.residual_tests.runs_z,
+                            b.residual_tests.durbin_watson));
+  }
+  return s + "</section>\n";
 }
 
 std::string section_derivatives(const Analysis& a, const HtmlOptions& o) {
@@ -658,9 +817,7 @@ std::string to_html(const Analysis& a, const HtmlOptions& options) {
   body += section_method_results(a);
   body += section_results(a);
   if (!a.curve.volume_mL.empty()) body += section_curve(a, options);
-  // Later stages add their sections here, each only when its data exist:
-  // the fitted model with its residuals after the curve, the indicators'
-  // transition bands (drawn on the curve) after the Gran plots.
+  if (a.fit.status != fit::FitStatus::not_run || a.fit.best) body += section_fit(a, options);
   if (!a.endpoints.derivatives.d1.empty()) body += section_derivatives(a, options);
   body += section_gran(a, options);
   body += section_indicators(a);

@@ -36,6 +36,8 @@ constexpr double kCarbonic1 = 6.35, kCarbonic2 = 10.33;
 constexpr double kPhosphoric1 = 2.15, kPhosphoric2 = 7.20, kPhosphoric3 = 12.34;
 // NH4+ 9.25 (CRC Handbook, inorganic acids and bases).
 constexpr double kAmmonium = 9.25;
+// phthalic 2.95 / 5.41 (Fromm, "Ionization constants of aqueous polyprotic acids": 2.946 / 5.409).
+constexpr double kPhthalic1 = 2.95, kPhthalic2 = 5.41;
 
 const std::vector<Case>& cases() {
   static const std::vector<Case> c = {
@@ -56,6 +58,12 @@ const std::vector<Case>& cases() {
        TitrantKind::base,
        0.25,
        {{"c_strong", 0.05}, {"c", 0.05}, {"pKa1", kAcetic}}},
+      // Potassium hydrogen phthalate: phthalic acid weighed in as its monopotassium salt.
+      {"acid_salt",
+       {{"potassium hydrogen phthalate", 0.05}},
+       TitrantKind::base,
+       0.25,
+       {{"c", 0.05}, {"pKa1", kPhthalic1}, {"pKa2", kPhthalic2}}},
       {"strong_base", {{"sodium hydroxide", 0.1}}, TitrantKind::acid, 0.25, {{"c", 0.1}, {"offset", 0.0}}},
       {"weak_base", {{"ammonia", 0.1}}, TitrantKind::acid, 0.25, {{"c", 0.1}, {"pKa1", kAmmonium}}},
       {"carbonate_base",

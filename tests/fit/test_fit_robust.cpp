@@ -55,8 +55,11 @@ TEST_CASE("model selection picks the model the run was made with, and names the 
     double step_mL;
   };
   // Handbook pKa values in the analyte table (REFERENCES §2): acetic 4.756; phosphoric 2.15/7.20/12.34;
-  // carbonic 6.35/10.33; NH4+ 9.25.
+  // carbonic 6.35/10.33; NH4+ 9.25; phthalic 2.95/5.41 (KHP: its monopotassium salt); citric
+  // 3.13/4.76/6.40 (close steps: only the last jump shows, so one endpoint stands for the third step).
   const auto c = GENERATE(Case{"strong_acid", {{"hydrochloric acid", 0.1}}, veq::TitrantKind::base, 0.25},
+                          Case{"acid_salt", {{"potassium hydrogen phthalate", 0.05}}, veq::TitrantKind::base, 0.25},
+                          Case{"triprotic_acid", {{"citric acid", 0.03}}, veq::TitrantKind::base, 0.2},
                           Case{"weak_acid", {{"acetic acid", 0.1}}, veq::TitrantKind::base, 0.25},
                           Case{"triprotic_acid", {{"phosphoric acid", 0.04}}, veq::TitrantKind::base, 0.2},
                           Case{"weak_base", {{"ammonia", 0.1}}, veq::TitrantKind::acid, 0.25},

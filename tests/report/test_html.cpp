@@ -34,8 +34,11 @@ std::string strong_acid_log(const std::string& metadata, bool with_sample_volume
   return t;
 }
 
+// The fixtures come from the ideal (concentration) charge balance, so the fit uses the same.
 veq::Analysis analyse(const std::string& text, const std::string& name = "run.csv") {
-  return veq::analyze(veq::ingest::parse_run(text, name));
+  veq::AnalyzeOptions o;
+  o.fit.activity = veq::chem::ActivityModel::ideal;
+  return veq::analyze(veq::ingest::parse_run(text, name), o);
 }
 
 // Elements a report may contain: HTML structure and the SVG drawing elements. No script, no
@@ -135,17 +138,42 @@ TEST_CASE("the report is well-formed, has every section with data, and no script
   REQUIRE(a.endpoints.endpoints.size() == 1);
   const std::string html = veq::report::to_html(a);
   check_report_page(html);
-  for (const char* id : {"id=\"results\"", "id=\"curve\"", "id=\"derivatives\"", "id=\"gran\"", "id=\"details\""}) {
+  for (const char* id :
+       {"id=\"results\"", "id=\"curve\"", "id=\"fit\"", "id=\"derivatives\"", "id=\"gran\"", "id=\"details\""}) {
     INFO(id);
     CHECK(html.find(id) != std::string::npos);
   }
-  // Curve, first and second derivative, and a Gran plot before and after the endpoint.
-  CHECK(check_xml(html).svg_spans.size() == 5);
+  // Curve (with the fitted model), the fit's residuals, first and second derivative, and a Gran plot
+  // before and after the endpoint.
+  CHECK(check_xml(html).svg_spans.size() == 6);
   // Printable on A4; the safety caution on the page.
   CHECK(html.find("@page { size: A4") != std::string::npos);
   CHECK(html.find(veq::report::html_escape(veq::report::safety_caution())) != std::string::npos);
   // A clean curve (exact charge balance) has no flags and no warnings section.
   CHECK(html.find("id=\"flags\"") == std::string::npos);
+}
+
+TEST_CASE("the fitted model is drawn on the curve and its residuals plotted", "[report][html]") {
+  const veq::Analysis a = analyse(strong_acid_log("Sample: HTML-FIT\n"));
+  REQUIRE(a.fit.best.has_value());
+  const auto& b = *a.fit.best;
+  // 0.1 mol/L HCl from the test's own exact charge balance (Harris, Quantitative Chemical Analysis,
+  // strong acid-strong base titration; from memory): the fit recovers it to the rounding of the pH.
+  const auto* c = b.parameter("c");
+  REQUIRE(c != nullptr);
+  CHECK(c->value == Approx(0.1).epsilon(2e-3));
+  REQUIRE(b.model_values.size() == b.residuals.size());
+  for (std::size_t i = 0; i < b.residuals.size(); ++i) CHECK(std::fabs(b.residuals[i]) < 0.01);
+  const std::string html = veq::report::to_html(a);
+  check_report_page(html);
+  CHECK(html.find("fitted model") != std::string::npos);
+  CHECK(html.find("Residuals of the fit") != std::string::npos);
+  CHECK(html.find("<strong>" + veq::report::html_escape(b.model) + "</strong>") != std::string::npos);
+  // The curve plot carries two polylines (readings and model) once the fit exists.
+  const std::string curve = html.substr(html.find("id=\"curve\""), html.find("id=\"fit\"") - html.find("id=\"curve\""));
+  std::size_t lines = 0;
+  for (std::size_t at = curve.find("<polyline"); at != std::string::npos; at = curve.find("<polyline", at + 1)) ++lines;
+  CHECK(lines == 2);
 }
 
 TEST_CASE("sections without data are left out: no sample volume, no Gran plot", "[report][html]") {
@@ -155,6 +183,7 @@ TEST_CASE("sections without data are left out: no sample volume, no Gran plot", 
   const std::string html = veq::report::to_html(a);
   check_report_page(html);
   CHECK(html.find("id=\"gran\"") == std::string::npos);
+  CHECK(html.find("id=\"fit\"") == std::string::npos);       // no sample volume: no fit
   CHECK(html.find("id=\"warnings\"") != std::string::npos);  // Gran skipped is a warning
   CHECK(check_xml(html).svg_spans.size() == 3);
 }

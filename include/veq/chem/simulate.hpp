@@ -111,10 +111,11 @@ struct Simulation {
 // ---- writing a simulated run as an instrument export ------------------------------------------------------
 
 enum class MetadataStyle {
-  none,    // the table alone
-  colon,   // "Sample volume: 25 mL"
-  equals,  // "Sample volume = 25 mL"
-  comma    // "Sample volume,25 mL"
+  none,      // the table alone
+  colon,     // "Sample volume: 25 mL"
+  equals,    // "Sample volume = 25 mL"
+  comma,     // "Sample volume,25 mL"
+  separator  // key and value apart by the column separator ("Sample volume;25 mL")
 };
 
 struct OutputFormat {

@@ -33,6 +33,7 @@ enum class ModelKind {
   diprotic_acid,          // H2A; c, pKa1, pKa2
   triprotic_acid,         // H3A; c, pKa1..pKa3
   strong_weak_acid,       // HX + HA; c_strong, c, pKa1
+  acid_salt,              // HA- added as its salt (KHP-type: one proton of H2A left); c, pKa1, pKa2
   strong_base,            // MOH; c
   weak_base,              // B (conjugate acid BH+); c, pKa1
   carbonate_base,         // A2- added as its salt (Na2CO3-type); c, pKa1, pKa2
@@ -218,6 +219,7 @@ struct FitSummary {
   ResidualTests residual_tests;
   std::vector<double> residuals;            // measured - model, per reading fitted [signal unit]
   std::vector<double> residual_volumes_mL;  // their volumes [mL]
+  std::vector<double> model_values;         // the fitted model's signal there (measured - residual) [signal unit]
   std::vector<std::string> flags;
   // The fitted chemistry: pH(V) of the fitted model (the electrode excluded).
   chem::Model<double> chemistry;
