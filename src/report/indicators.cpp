@@ -85,7 +85,14 @@ std::string verdict_words(indicators::Verdict v) {
 std::string short_change(const indicators::ColourChange& c) {
   std::string s = c.indicator.name + " " + verdict_words(c.verdict);
   if (c.error_percent) {
-    s += fmt::format(" ({:+.2f} ± {:.2f} %)", *c.error_percent, c.error_uncertainty_percent.value_or(0.0));
+    const double e = *c.error_percent, u = c.error_uncertainty_percent.value_or(0.0);
+    // "-0.00 ± 0.00 %" says nothing: below 0.005 % both read "< 0.01".
+    if (std::fabs(e) < 0.005 && u < 0.005)
+      s += " (error < 0.01 %)";
+    else if (u < 0.005)
+      s += fmt::format(" ({:+.2f} %, ± < 0.01)", e);
+    else
+      s += fmt::format(" ({:+.2f} ± {:.2f} %)", std::fabs(e) < 0.005 ? 0.0 : e, u);
   } else
     s += " (not seen)";
   return s;
