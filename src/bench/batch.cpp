@@ -27,6 +27,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <map>
 #include <string>
 #include <thread>
 #include <vector>
@@ -34,6 +35,7 @@
 #include "support/simulated_runs.hpp"
 #include "veq/analyze.hpp"
 #include "veq/batch/listing.hpp"
+#include "veq/fit/fit.hpp"
 #include "veq/ingest/reader.hpp"
 #include "veq/report/html.hpp"
 #include "veq/report/json.hpp"
@@ -124,8 +126,9 @@ std::string load_average() {
 }
 
 struct Stages {
-  double read = 0, ingest = 0, prepare = 0, endpoints = 0, gran = 0, json = 0, html = 0;
+  double read = 0, ingest = 0, prepare = 0, endpoints = 0, gran = 0, fit = 0, rest = 0, json = 0, html = 0;
   std::size_t runs = 0, points = 0, endpoints_found = 0, failed = 0;
+  std::map<std::string, std::pair<double, std::size_t>> fit_by_kind;  // file-name kind -> (seconds, runs)
 };
 
 // The stages of veq::analyze() one by one (as src/analyze.cpp calls them), timed over every run.
@@ -167,7 +170,25 @@ Stages time_stages(const std::vector<fs::path>& files) {
     }
     s.gran += seconds_since(t);
     s.endpoints_found += a.endpoints.endpoints.size();
-    a.run = std::move(run);
+    // The charge-balance fit, with the inputs veq::analyze() gives it.
+    t = Clock::now();
+    veq::fit::FitInputs fi;
+    fi.sample_volume_mL = run.facts.sample_volume_mL.value_or(0.0);
+    fi.titrant_conc_mol_L = run.facts.titrant_conc_mol_L.value_or(0.0);
+    fi.titrant = run.facts.titrant_kind;
+    fi.temperature_C = a.curve.temperature_C;
+    const veq::fit::FitResult fr = veq::fit::fit_titration(a.curve, fi, a.endpoints.endpoints, a.gran, {});
+    const double fit_s = seconds_since(t);
+    s.fit += fit_s;
+    std::string kind = f.stem().string();
+    kind = kind.substr(std::min(kind.size(), kind.find('_', 4) + 1));
+    s.fit_by_kind[kind].first += fit_s;
+    ++s.fit_by_kind[kind].second;
+    // The whole of veq::analyze() (the stages above again, the fit, the final consensus and the
+    // indicators): what is left after the stages is the consensus with the fit and the indicators.
+    t = Clock::now();
+    a = veq::analyze(run);
+    s.rest += seconds_since(t);
     t = Clock::now();
     const std::string json = veq::report::to_json(a);
     s.json += seconds_since(t);
@@ -185,6 +206,7 @@ int main(int argc, char** argv) {
   std::size_t n = 10000;
   fs::path dir = fs::temp_directory_path() / "veq_bench_batch";
   bool keep = false;
+  bool stages_only = false;  // the per-stage timing alone (no runs of the binary)
   int repeat = 3;
   for (int i = 1; i < argc; ++i) {
     const std::string a = argv[i];
@@ -196,8 +218,10 @@ int main(int argc, char** argv) {
       repeat = std::max(1, std::stoi(argv[++i]));
     } else if (a == "--keep") {
       keep = true;
+    } else if (a == "--stages-only") {
+      stages_only = true;
     } else {
-      std::cerr << "usage: veq_bench_batch [--runs N] [--repeat R] [--dir DIR] [--keep]\n";
+      std::cerr << "usage: veq_bench_batch [--runs N] [--repeat R] [--dir DIR] [--keep] [--stages-only]\n";
       return 2;
     }
   }
@@ -218,7 +242,9 @@ int main(int argc, char** argv) {
                            std::thread::hardware_concurrency(),
                            load_average());
   const Stages s = time_stages(files);
-  const double analysis = s.ingest + s.prepare + s.endpoints + s.gran;
+  // veq::analyze() repeats prepare to the fit; what it adds beyond them is the final consensus and the indicators.
+  const double rest = std::max(0.0, s.rest - (s.prepare + s.endpoints + s.gran + s.fit));
+  const double analysis = s.ingest + s.prepare + s.endpoints + s.gran + s.fit + rest;
   auto us = [&](double total) { return 1e6 * total / static_cast<double>(std::max<std::size_t>(s.runs, 1)); };
   std::cout << fmt::format(
       "\nTime per stage, one thread, mean per run ({} runs, {:.0f} readings on average, {} failed):\n",
@@ -230,14 +256,23 @@ int main(int argc, char** argv) {
                                                                            {"prepare", s.prepare},
                                                                            {"derivative endpoints", s.endpoints},
                                                                            {"Gran + consensus", s.gran},
+                                                                           {"charge-balance fit", s.fit},
+                                                                           {"indicators, final", rest},
                                                                            {"JSON", s.json},
                                                                            {"HTML report", s.html}}) {
     std::cout << fmt::format("  {:<22}{:9.1f} us  {:5.1f} % of the analysis\n", name, us(t), 100.0 * t / analysis);
   }
-  std::cout << fmt::format("  {:<22}{:9.1f} us  -> {:.0f} runs/s on one thread (ingest to consensus)\n",
-                           "analysis",
-                           us(analysis),
-                           static_cast<double>(s.runs) / analysis);
+  std::cout << fmt::format(
+      "  {:<22}{:9.1f} us  -> {:.0f} runs/s on one thread (ingest to indicators, the fit included)\n",
+      "analysis",
+      us(analysis),
+      static_cast<double>(s.runs) / analysis);
+  std::cout << "  fit by kind of run:";
+  for (const auto& [kind, v] : s.fit_by_kind)
+    std::cout << fmt::format(
+        " {} {:.0f} us;", kind, 1e6 * v.first / static_cast<double>(std::max<std::size_t>(v.second, 1)));
+  std::cout << "\n";
+  if (stages_only) return 0;
 
   std::cout << "\nveq batch (the real binary), fresh output folder each time:\n";
   std::cout << fmt::format(

@@ -122,6 +122,8 @@ std::vector<std::string> FitOptions::validate() const {
   if (!(max_residual_ratio >= 1.0))
     p.push_back(fmt::format("fit max_residual_ratio = {}: must be >= 1", max_residual_ratio));
   if (max_points < 20) p.push_back(fmt::format("fit max_points = {}: must be at least 20", max_points));
+  if (screen_points != 0 && (screen_points < 20 || screen_points > 100000))
+    p.push_back(fmt::format("fit screen_points = {}: must be 0 (no screening) or in [20, 100000]", screen_points));
   if (!(background_ionic_strength_mol_L >= 0.0 && background_ionic_strength_mol_L <= 5.0))
     p.push_back(
         fmt::format("fit background_ionic_strength_mol_L = {}: must be in [0, 5]", background_ionic_strength_mol_L));
@@ -1307,6 +1309,26 @@ FitResult fit_titration(const Curve& curve,
   }
   const double delta = o.loss_scale * p.noise;
   const bool selecting = shapes.size() > 1;
+  // Screening: with several candidates, they are fitted to an even thinning of the readings (every k-th by
+  // index, FitOptions::screen_points of them): a candidate's cost is proportional to the readings, and ranking
+  // models needs far fewer than measuring the chosen one. The two best are then fitted to all readings
+  // from their screening solutions, and all the readings decide between them (DEVELOPERS.md, "Model
+  // selection").
+  const std::size_t n_all = p.obs.volume_mL.size();
+  const bool screening = selecting && o.screen_points > 0 && n_all > 3 * static_cast<std::size_t>(o.screen_points) / 2;
+  Prepared thinned;
+  if (screening) {
+    thinned = p;
+    const auto m = static_cast<std::size_t>(o.screen_points);
+    thinned.obs.volume_mL.clear();
+    thinned.obs.value.clear();
+    for (std::size_t j = 0; j < m; ++j) {
+      const std::size_t i = (j * (n_all - 1) + (m - 1) / 2) / (m - 1);
+      thinned.obs.volume_mL.push_back(p.obs.volume_mL[i]);
+      thinned.obs.value.push_back(p.obs.value[i]);
+    }
+  }
+  const Prepared& ps = screening ? thinned : p;
 
   // Candidates get fewer iterations and a looser cost tolerance than a forced model (a wrong model need not
   // converge to lose), and one still 8 times the best least-squares cost after 4 iterations is abandoned:
@@ -1314,7 +1336,7 @@ FitResult fit_titration(const Curve& curve,
   // The cost tolerance of a candidate, 0.02/n, leaves its criterion within about n x 0.02 x (a few) < 1 of
   // its converged value: far below the differences (>= 2) that decide.
   AttemptLimits candidate_limits;
-  const double n_points = static_cast<double>(p.obs.volume_mL.size());
+  const double n_points = static_cast<double>(ps.obs.volume_mL.size());
   candidate_limits.max_iterations = selecting ? std::min(o.max_iterations, 8) : o.max_iterations;
   candidate_limits.function_tolerance =
       selecting ? std::max(o.function_tolerance, 0.02 / n_points) : o.function_tolerance;
@@ -1338,20 +1360,20 @@ FitResult fit_titration(const Curve& curve,
     if (parent != nullptr)
       plan.push_back(std::nullopt);
     else
-      for (const Start& st : starts(shape, p)) plan.push_back(st);
+      for (const Start& st : starts(shape, ps)) plan.push_back(st);
     for (const auto& st : plan) {
       AttemptLimits lim = candidate_limits;
       if (selecting) lim.abandon_above_cost = best_ls;
       Layout layout;
       try {
-        layout = st ? make_layout(shape, p, o, *st) : seeded_layout(shape, *parent, p, o);
+        layout = st ? make_layout(shape, ps, o, *st) : seeded_layout(shape, *parent, ps, o);
       } catch (const InputError& e) {
         // A held parameter this candidate lacks: in a selection the candidate is left out; alone, an error.
         if (!selecting) throw;
         hold_error = e;
         break;
       }
-      Attempt a = run_attempt(std::move(layout), p, o, delta, lim);
+      Attempt a = run_attempt(std::move(layout), ps, o, delta, lim);
       if (a.ok && !a.abandoned) best_ls = std::min(best_ls, a.least_squares_cost);
       if (a.ok && (!best.ok || a.rho_sum < best.rho_sum))
         best = std::move(a);
@@ -1368,8 +1390,9 @@ FitResult fit_titration(const Curve& curve,
     ms.free_parameters = a.layout.free_count;
     ms.residual_sd =
         a.ok ? std::sqrt(std::max(a.rho_sum, 0.0) /
-                         std::max<double>(1.0, static_cast<double>(p.obs.volume_mL.size()) - a.layout.free_count))
+                         std::max<double>(1.0, static_cast<double>(ps.obs.volume_mL.size()) - a.layout.free_count))
              : 0.0;
+    ms.readings = static_cast<int>(ps.obs.volume_mL.size());
     if (a.ok) result.candidates.push_back(ms);
   }
   std::sort(result.candidates.begin(), result.candidates.end(), [](const ModelScore& x, const ModelScore& y) {
@@ -1400,8 +1423,92 @@ FitResult fit_titration(const Curve& curve,
     result.warnings.push_back({"fit_failed", "charge-balance fit failed: " + result.message, {}});
     return result;
   }
+  bool polished = false;  // the winner was already solved to the full tolerances
+  if (screening) {
+    const std::size_t screened_winner = chosen;
+    // The screening's best two (by the same rule), fitted again to every reading from where they stopped.
+    std::size_t second = best_per_shape.size();
+    for (const bool allow_bound : {false, true}) {
+      for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
+        const Attempt& q = best_per_shape[i];
+        if (i == chosen || !q.ok || q.abandoned || (!allow_bound && at_bound(q))) continue;
+        if (second == best_per_shape.size() || q.score < best_per_shape[second].score) second = i;
+      }
+      if (second != best_per_shape.size()) break;
+    }
+    AttemptLimits again = candidate_limits;
+    again.function_tolerance = std::max(o.function_tolerance, 0.02 / static_cast<double>(n_all));
+    again.least_squares_stage = false;
+    for (const std::size_t i : {chosen, second}) {
+      if (i == best_per_shape.size()) continue;
+      Attempt& q = best_per_shape[i];
+      Layout L = q.layout;
+      for (ParamDef& d : L.params) {
+        if (d.index >= 0) d.initial = std::clamp(q.layout.value(d, q.u.data()), d.lower, d.upper);
+      }
+      // The runner-up first gets 3 iterations: its score can only fall with more, so one still 10 units
+      // behind the winner stays behind (then it is not refined); a closer one gets the full candidate limits.
+      if (i == second && best_per_shape[chosen].ok) {
+        AttemptLimits brief = again;
+        brief.max_iterations = std::min(again.max_iterations, 3);
+        Attempt quick = run_attempt(L, p, o, delta, brief);
+        if (quick.ok && quick.score > best_per_shape[chosen].score + 10.0) {
+          for (auto& c : result.candidates) {
+            if (c.model != q.layout.shape.name) continue;
+            c.score = quick.score;
+            c.converged = quick.report.status == FitStatus::converged;
+            c.readings = static_cast<int>(n_all);
+            c.residual_sd = std::sqrt(std::max(quick.rho_sum, 0.0) /
+                                      std::max<double>(1.0, static_cast<double>(n_all) - quick.layout.free_count));
+          }
+          q = std::move(quick);
+          continue;
+        }
+      }
+      // The screening's winner straight to the full limits and tolerances (it is most often the final
+      // winner; should the runner-up take over, that one is polished below).
+      AttemptLimits lim = again;
+      if (i == chosen) {
+        lim.max_iterations = o.max_iterations;
+        lim.function_tolerance = o.function_tolerance;
+      }
+      Attempt full = run_attempt(std::move(L), p, o, delta, lim);
+      for (auto& c : result.candidates) {
+        if (c.model != q.layout.shape.name) continue;
+        c.score = std::isfinite(full.score) ? full.score : 0.0;
+        c.converged = full.ok && full.report.status == FitStatus::converged;
+        c.readings = static_cast<int>(n_all);
+        c.residual_sd = full.ok ? std::sqrt(std::max(full.rho_sum, 0.0) /
+                                            std::max<double>(1.0, static_cast<double>(n_all) - full.layout.free_count))
+                                : 0.0;
+      }
+      q = std::move(full);
+    }
+    // All the readings decide between the two (a bound again gives way).
+    if (second != best_per_shape.size()) {
+      const Attempt& a = best_per_shape[chosen];
+      const Attempt& b = best_per_shape[second];
+      const bool a_fine = a.ok && !at_bound(a), b_fine = b.ok && !at_bound(b);
+      if ((b_fine && !a_fine) || (b.ok && b_fine == a_fine && b.score < a.score) || (!a.ok && b.ok)) chosen = second;
+    }
+    polished = chosen == screened_winner;
+    if (!best_per_shape[chosen].ok) {
+      result.status = FitStatus::failed;
+      result.flags = {kFlagFailed};
+      result.message =
+          "no candidate model could be fitted to all the readings (" + best_per_shape[chosen].report.termination + ")";
+      result.warnings.push_back({"fit_failed", "charge-balance fit failed: " + result.message, {}});
+      return result;
+    }
+    // The two refitted first (they are compared on the same readings), then the screened rest.
+    std::stable_sort(result.candidates.begin(), result.candidates.end(), [&](const ModelScore& x, const ModelScore& y) {
+      if ((x.readings == static_cast<int>(n_all)) != (y.readings == static_cast<int>(n_all)))
+        return x.readings == static_cast<int>(n_all);
+      return x.score < y.score;
+    });
+  }
   Attempt& win = best_per_shape[chosen];
-  if (selecting) {
+  if (selecting && !polished) {
     // The winner is polished from where it stopped, with the full limits and tolerances (its warm states
     // are where it stopped too).
     const std::vector<double> u_before = win.u;
@@ -1418,9 +1525,12 @@ FitResult fit_titration(const Curve& curve,
       for (auto& c : result.candidates) {
         if (c.model == win.layout.shape.name) c.score = win.score;
       }
-      std::sort(result.candidates.begin(), result.candidates.end(), [](const ModelScore& x, const ModelScore& y) {
-        return x.score < y.score;
-      });
+      const int n_full = static_cast<int>(n_all);
+      std::stable_sort(
+          result.candidates.begin(), result.candidates.end(), [n_full](const ModelScore& x, const ModelScore& y) {
+            if ((x.readings == n_full) != (y.readings == n_full)) return x.readings == n_full;
+            return x.score < y.score;
+          });
     } else {
       win.u = u_before;
       win.report = report_before;
@@ -1430,7 +1540,7 @@ FitResult fit_titration(const Curve& curve,
     }
   }
   FitSummary summary = summarise(win, p, o, delta, endpoints);
-  if (result.candidates.size() > 1) {
+  if (result.candidates.size() > 1 && result.candidates[1].readings == result.candidates[0].readings) {
     result.runner_up = result.candidates[1];
     if (result.candidates[1].score - result.candidates[0].score < 2.0) summary.flags.emplace_back(kFlagAmbiguous);
   }
@@ -1457,21 +1567,29 @@ indicators::PhCurve fitted_curve(const FitSummary& fit, const Curve& curve) {
     if (std::isfinite(v) && (knots.empty() || v > knots.back())) knots.push_back(v);
   }
   std::vector<double> pH;
+  // Each knot's solved state: the indicator check asks for the pH at hundreds of volumes between knots,
+  // and a solve warm-started from the nearest knot costs a few Newton steps instead of a bracketing.
+  auto states = std::make_shared<std::vector<chem::Equilibrium>>();
+  states->reserve(knots.size());
   chem::Equilibrium warm;
   for (double v : knots) {
     const chem::Point<double> pt = titration->solve(v, &warm);
-    pH.push_back(pt.state.converged && std::isfinite(pt.pH) ? pt.pH : (pH.empty() ? 7.0 : pH.back()));
+    const bool ok = pt.state.converged && std::isfinite(pt.pH);
+    pH.push_back(ok ? pt.pH : (pH.empty() ? 7.0 : pH.back()));
+    states->push_back(ok ? pt.state : chem::Equilibrium{});
   }
   c.knots_mL = knots;
   c.knots_pH = pH;
-  c.pH_at_mL = [titration, knots, pH](double v) {
-    const chem::Point<double> pt = titration->solve(v, nullptr);
+  c.pH_at_mL = [titration, knots, pH, states](double v) {
+    const auto it = std::lower_bound(knots.begin(), knots.end(), v);
+    std::size_t i = std::min(static_cast<std::size_t>(it - knots.begin()), knots.empty() ? 0 : knots.size() - 1);
+    if (i > 0 && i < knots.size() && v - knots[i - 1] < knots[i] - v) --i;  // the nearer knot
+    chem::Equilibrium start = i < states->size() ? (*states)[i] : chem::Equilibrium{};
+    const chem::Point<double> pt = titration->solve(v, start.converged ? &start : nullptr);
     if (pt.state.converged && std::isfinite(pt.pH)) return pt.pH;
     if (pH.empty()) return 7.0;
     // Not expected inside the fitted range; the nearest knot keeps the curve finite.
-    const auto it = std::lower_bound(knots.begin(), knots.end(), v);
-    const std::size_t i = std::min(static_cast<std::size_t>(it - knots.begin()), pH.size() - 1);
-    return pH[i];
+    return pH[std::min(i, pH.size() - 1)];
   };
   c.direction = fit.chemistry.titrant_sign > 0 ? +1 : -1;
   c.method = "model";

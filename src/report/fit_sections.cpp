@@ -133,6 +133,7 @@ ordered_json fit_json(const Analysis& a) {
     cj["model"] = c.model;
     cj["score"] = rounded(c.score, 3);
     cj["free_parameters"] = c.free_parameters;
+    cj["readings"] = c.readings;
     cands.push_back(cj);
   }
   j["candidates"] = cands;

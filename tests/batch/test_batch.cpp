@@ -11,6 +11,7 @@
 
 #include "support/csv_parse.hpp"
 #include "support/files.hpp"
+#include "support/charge_balance.hpp"
 #include "support/simulated_runs.hpp"
 #include "support/xml_check.hpp"
 #include "veq/batch/batch.hpp"

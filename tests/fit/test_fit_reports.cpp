@@ -284,5 +284,6 @@ TEST_CASE("fit default options are pinned", "[options]") {
   CHECK(o.runs_test_alpha == 0.01);
   CHECK(o.max_residual_ratio == 3.0);
   CHECK(o.max_points == 2000);
+  CHECK(o.screen_points == 60);
   CHECK(o.validate().empty());
 }

@@ -79,4 +79,14 @@ TEST_CASE("model selection picks the model the run was made with, and names the 
   for (const auto& f : a.fit.best->flags) flags += f + " ";
   CAPTURE(flags);
   CHECK(a.fit.usable());
+  // The winner and the runner-up are compared on every reading, after a screening on a thinning; without
+  // the screening (every candidate on every reading) the same model wins.
+  CHECK(a.fit.candidates[0].readings == a.fit.best->points);
+  CHECK(a.fit.runner_up->readings == a.fit.best->points);
+  veq::AnalyzeOptions all;
+  all.fit.screen_points = 0;
+  const veq::Analysis b = veq::analyze(veq::test::run_from_simulation(sim, false), all);
+  REQUIRE(b.fit.best);
+  CHECK(b.fit.best->model == c.expected);
+  for (const auto& s : b.fit.candidates) CHECK(s.readings == b.fit.best->points);
 }

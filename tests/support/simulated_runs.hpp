@@ -1,5 +1,6 @@
 // SPDX-License-Identifier: MIT
-// Simulated titration exports of mixed kinds, computed from the exact charge balance in charge_balance.hpp.
+// Simulated titration exports of mixed kinds, computed by veq's chemistry model with Davies activity
+// coefficients (as a real electrode reads a real solution; chem::Titration).
 //
 // Used where a test or the benchmark needs many realistic files and no
 // particular expected value: a batch folder, the SIGKILL test, the 10,000-run
@@ -7,8 +8,7 @@
 //   0 strong acid with a strong base      3 strong base with a strong acid (pH falls)
 //   1 weak acid (pKa 4.76) with a base    4 carbonate with a strong acid (two endpoints)
 //   2 phosphoric acid with a base (two)   5 like 0 or 1, logged in mV with E0 and slope in the metadata
-// pKa values: acetic 4.756, phosphoric 2.148/7.198/12.35, carbonic 6.352/10.329 (CRC Handbook,
-// "Dissociation constants of inorganic/organic acids", from memory); only shapes matter here.
+// pKa values from the analyte table (src/data/analytes.tsv); only shapes matter here.
 #pragma once
 
 #include <fmt/format.h>
@@ -20,7 +20,9 @@
 #include <string>
 #include <vector>
 
-#include "support/charge_balance.hpp"
+#include "veq/chem/analytes.hpp"
+#include "veq/chem/equilibrium.hpp"
+#include "veq/chem/sample.hpp"
 
 namespace veq::test {
 
@@ -30,23 +32,6 @@ struct SimulatedRun {
   int kind = 0;
   std::size_t points = 0;
 };
-
-// pH after V mL by bisection on volume_at_pH, 56 halvings of the pH range (1e-15 pH): the
-// support's pH_at_volume with fewer iterations, for speed when thousands of runs are made.
-inline double fast_pH_at_volume(const Sample& s, double V) {
-  double lo = -1.0, hi = 15.0;
-  const bool rising = s.titrant > 0;
-  for (int i = 0; i < 56; ++i) {
-    const double mid = 0.5 * (lo + hi);
-    const double vm = volume_at_pH(s, mid);
-    const bool below = std::isfinite(vm) && vm >= 0 ? (vm < V) : (mid < 7.0) == rising;
-    if (below == rising)
-      lo = mid;
-    else
-      hi = mid;
-  }
-  return 0.5 * (lo + hi);
-}
 
 // Run `index` of the family `seed`: about 150-400 readings (uniform), constant or
 // endpoint-dense dosing, Gaussian pH noise 0.002-0.006, metadata with sample
@@ -59,34 +44,39 @@ inline SimulatedRun simulate_run(std::uint64_t seed, std::uint64_t index) {
   int chem = out.kind;
   const bool mv = chem == 5;
   if (mv) chem = u01(rng) < 0.5 ? 0 : 1;
-  Sample s;
-  s.V0_mL = 10.0 + 40.0 * u01(rng);
+  chem::Sample sample;
+  sample.volume_mL = 10.0 + 40.0 * u01(rng);
   const double c = 0.02 + 0.1 * u01(rng);
+  chem::Titrant titrant;
+  titrant.conc_mol_L = 0.1;
   std::vector<double> veq;
   const char* kind_name = "";
+  auto add = [&](const char* name, double conc) { sample.analytes.push_back(chem::analyte(name, conc)); };
+  const double V0 = sample.volume_mL;
   switch (chem) {
     case 0:
-      s.strong_acid = c, kind_name = "strong_acid";
-      veq = {c * s.V0_mL / s.titrant};
+      add("hydrochloric acid", c), kind_name = "strong_acid";
+      veq = {c * V0 / 0.1};
       break;
     case 1:
-      s.weak = {{c, {4.756}}}, kind_name = "weak_acid";
-      veq = {c * s.V0_mL / s.titrant};
+      add("acetic acid", c), kind_name = "weak_acid";
+      veq = {c * V0 / 0.1};
       break;
     case 2:
-      s.weak = {{c * 0.5, {2.148, 7.198, 12.35}}}, kind_name = "phosphoric";
-      veq = {0.5 * c * s.V0_mL / s.titrant, c * s.V0_mL / s.titrant};
+      add("phosphoric acid", 0.5 * c), kind_name = "phosphoric";
+      veq = {0.5 * c * V0 / 0.1, c * V0 / 0.1};
       break;
     case 3:
-      s.strong_base = c, s.titrant = -0.1, kind_name = "strong_base";
-      veq = {c * s.V0_mL / 0.1};
+      add("sodium hydroxide", c), titrant.kind = TitrantKind::acid, kind_name = "strong_base";
+      veq = {c * V0 / 0.1};
       break;
     default:
-      // Na2CO3 as H2CO3 plus two equivalents of strong base, titrated with acid.
-      s.weak = {{c * 0.5, {6.352, 10.329}}}, s.strong_base = c, s.titrant = -0.1, kind_name = "carbonate";
-      veq = {0.5 * c * s.V0_mL / 0.1, c * s.V0_mL / 0.1};
+      add("sodium carbonate", 0.5 * c), titrant.kind = TitrantKind::acid, kind_name = "carbonate";
+      veq = {0.5 * c * V0 / 0.1, c * V0 / 0.1};
       break;
   }
+  const chem::Titration<double> titration(chem::build_model(sample, titrant));
+  chem::Equilibrium warm;
   const std::size_t n = 150 + static_cast<std::size_t>(u01(rng) * 251.0);
   const double vmax = veq.back() * (1.4 + 0.4 * u01(rng));
   std::vector<double> v;
@@ -116,13 +106,13 @@ inline SimulatedRun simulate_run(std::uint64_t seed, std::uint64_t index) {
   t.reserve(64 + 16 * v.size());
   t += fmt::format("Sample: SIM-{:05d}\nSample volume: {:.2f} mL\nTitrant: {} {:.4f} mol/L\nTemperature: 25.0 °C\n",
                    index,
-                   s.V0_mL,
-                   s.titrant > 0 ? "NaOH" : "HCl",
-                   std::fabs(s.titrant));
+                   V0,
+                   titrant.kind == TitrantKind::base ? "NaOH" : "HCl",
+                   titrant.conc_mol_L);
   if (mv) t += fmt::format("E0: {:.1f} mV\nSlope: {:.2f} mV\n", e0, slope);
   t += mv ? "\nVolume (mL),E (mV)\n" : "\nVolume (mL),pH\n";
   for (double x : v) {
-    const double ph = fast_pH_at_volume(s, x) + noise(rng);
+    const double ph = titration.pH(x, &warm) + noise(rng);
     if (mv)
       t += fmt::format("{:.3f},{:.1f}\n", x, e0 - slope * ph);
     else

@@ -122,6 +122,9 @@ struct FitOptions {
   double max_residual_ratio = 3.0;
   // Curves with more readings are thinned to about this many, evenly by index [-].
   int max_points = 2000;
+  // Model selection screens the candidates on this many readings (evenly by index) when the run has more
+  // than 1.5 times as many; the best two are then fitted to all. 0: every candidate on all readings [-].
+  int screen_points = 60;
 
   // One line per problem ("loss_scale = 0: must be > 0"); empty when valid.
   [[nodiscard]] std::vector<std::string> validate() const;
@@ -235,7 +238,8 @@ struct FitSummary {
 // A candidate's standing in the model selection.
 struct ModelScore {
   std::string model;
-  double score = 0.0;
+  double score = 0.0;  // on `readings` readings: compare only scores on the same number
+  int readings = 0;    // all the fitted readings, or the screening's thinning
   bool converged = false;
   int free_parameters = 0;
   double residual_sd = 0.0;
