@@ -1,9 +1,9 @@
 // SPDX-License-Identifier: MIT
 // `veq method new KIND` writes a commented template; `veq method check FILE` reads one back.
+#include <fmt/format.h>
+
 #include <iostream>
 #include <memory>
-
-#include <fmt/format.h>
 
 #include "cli/cli.hpp"
 #include "cli/commands.hpp"
@@ -31,8 +31,10 @@ void add_method(CLI::App& app, Action& action) {
   make->callback([st, &action] {
     action = [st](std::ostream& out, std::ostream&) {
       const std::string text = method::method_template(st->kind);
-      if (st->out.empty()) out << text;
-      else io::write_file_atomically(st->out, text, st->force);
+      if (st->out.empty())
+        out << text;
+      else
+        io::write_file_atomically(st->out, text, st->force);
       return kExitOk;
     };
   });
@@ -44,10 +46,16 @@ void add_method(CLI::App& app, Action& action) {
       out << fmt::format("{}: method '{}' ({}), {} result(s)\n", m.path, m.name, m.kind, m.results.size());
       for (const auto& r : m.results) {
         out << fmt::format("  {}: {} from ", r.name, method::to_string(r.unit));
-        if (r.endpoint.at_pH) out << fmt::format("the volume at pH {:g}", *r.endpoint.at_pH);
-        else if (r.endpoint.last) out << "the last endpoint";
-        else out << fmt::format("endpoint {}", r.endpoint.index);
-        out << fmt::format(" ({} volume)\n", method::to_string(r.endpoint.source));
+        // A fixed-pH endpoint is read off the curve where it crosses that pH: no estimate to choose.
+        if (r.endpoint.at_pH)
+          out << fmt::format("the volume where the curve crosses pH {:g}\n", *r.endpoint.at_pH);
+        else {
+          if (r.endpoint.last)
+            out << "the last endpoint";
+          else
+            out << fmt::format("endpoint {}", r.endpoint.index);
+          out << fmt::format(" ({} volume)\n", method::to_string(r.endpoint.source));
+        }
       }
       if (!m.titer_file.empty()) out << "  titrant concentration from " << m.titer_file << "\n";
       return kExitOk;

@@ -517,7 +517,10 @@ Layout make_layout(const ModelShape& s, const Prepared& p, const FitOptions& o, 
   }
 
   // Held parameters, then the free ones get their positions.
-  for (const auto& [name, value] : o.hold) {
+  for (const auto& held : o.hold) {
+    // (not a structured binding: clang before 16 cannot capture one in a lambda)
+    const std::string& name = held.first;
+    const double value = held.second;
     auto it = std::find_if(L.params.begin(), L.params.end(), [&](const ParamDef& d) { return d.name == name; });
     if (it == L.params.end()) {
       std::string names;
@@ -1028,7 +1031,9 @@ std::vector<Start> starts(const ModelShape& s, const Prepared& p) {
   }
   std::stable_sort(scored.begin(), scored.end(), [](const auto& x, const auto& y) { return x.first > y.first; });
   std::vector<Start> out;
-  for (const auto& [score, st] : scored) {
+  for (const auto& scored_start : scored) {
+    const double score = scored_start.first;
+    const Start& st = scored_start.second;
     if (out.size() == 3 || score < 0.999 * scored.front().first) break;
     const bool same = std::any_of(out.begin(), out.end(), [&](const Start& o) {
       return std::fabs(o.V_strong - st.V_strong) <= 0.05 * std::max(o.V_strong, 1e-9) &&

@@ -220,9 +220,7 @@ std::string section_method_results(const Analysis& a) {
   s += "<table class=\"results\">\n<thead><tr><th>Result</th><th>Value</th><th>U (k = 2)</th><th>Unit</th>"
        "<th>Specification</th><th>Verdict</th><th>From</th></tr></thead>\n<tbody>\n";
   for (const auto& r : rs.results) {
-    std::string spec;
-    if (r.spec_low) spec += fmt::format("&#8805; {:.{}f}", *r.spec_low, r.decimals);
-    if (r.spec_high) spec += fmt::format("{}&#8804; {:.{}f}", spec.empty() ? "" : ", ", *r.spec_high, r.decimals);
+    const std::string spec = esc(spec_text(r.spec_low, r.spec_high, std::max(r.decimals, 1)));
     const std::string from =
         r.at_pH
             ? fmt::format("volume at pH {:g}: {:.3f} mL", *r.at_pH, r.endpoint_volume_mL)

@@ -2,10 +2,10 @@
 // Terminal summary of one run.
 #include "veq/report/text.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
-
-#include <fmt/format.h>
 
 #include "report/fit_sections.hpp"
 #include "report/indicator_sections.hpp"
@@ -28,6 +28,24 @@ const char* safety_caution() {
          "numbers; it does not certify a result.";
 }
 
+std::string spec_text(const std::optional<double>& low, const std::optional<double>& high, int max_decimals) {
+  // Decimals a limit needs to be shown exactly (up to max_decimals): 6.5 -> 1, 400 -> 0.
+  auto needed = [max_decimals](double v) {
+    for (int d = 0; d < max_decimals; ++d) {
+      const double scaled = v * std::pow(10.0, d);
+      if (std::fabs(scaled - std::round(scaled)) < 1e-9 * std::max(1.0, std::fabs(scaled))) return d;
+    }
+    return max_decimals;
+  };
+  int d = 0;
+  if (low) d = std::max(d, needed(*low));
+  if (high) d = std::max(d, needed(*high));
+  if (low && high) return fmt::format("{:.{}f} to {:.{}f}", *low, d, *high, d);
+  if (low) return fmt::format("\xE2\x89\xA5 {:.{}f}", *low, d);
+  if (high) return fmt::format("\xE2\x89\xA4 {:.{}f}", *high, d);
+  return {};
+}
+
 std::string to_text(const Analysis& a) {
   const Run& run = a.run;
   const Curve& c = a.curve;
@@ -36,8 +54,15 @@ std::string to_text(const Analysis& a) {
   const double v0 = c.volume_mL.empty() ? 0.0 : c.volume_mL.front();
   const double v1 = c.volume_mL.empty() ? 0.0 : c.volume_mL.back();
   out += fmt::format("  {} readings of {}{} from {:.3f} to {:.3f} mL; {:.1f} °C{}; noise {:.2g} {}\n",
-                     run.volume_mL.size(), to_string(run.signal), c.converted_from_mv ? " (converted to pH)" : "", v0,
-                     v1, c.temperature_C, c.temperature_known ? "" : " (assumed)", c.noise_sd, to_string(c.signal));
+                     run.volume_mL.size(),
+                     to_string(run.signal),
+                     c.converted_from_mv ? " (converted to pH)" : "",
+                     v0,
+                     v1,
+                     c.temperature_C,
+                     c.temperature_known ? "" : " (assumed)",
+                     c.noise_sd,
+                     to_string(c.signal));
   if (run.facts.sample_volume_mL || run.facts.titrant_conc_mol_L) {
     out += "  ";
     if (run.facts.sample_volume_mL) out += fmt::format("sample {:g} mL  ", *run.facts.sample_volume_mL);
@@ -52,22 +77,44 @@ std::string to_text(const Analysis& a) {
   for (std::size_t i = 0; i < eps.size(); ++i) {
     const auto& e = eps[i];
     const int d = decimals_for(e.uncertainty_mL);
-    out += fmt::format("  Endpoint {}: {:.{}f} ± {:.{}f} mL at {} {:.{}f}", e.index, e.volume_mL, d, e.uncertainty_mL, d,
-                       to_string(c.signal), e.value, c.signal == SignalKind::ph ? 2 : 1);
-    out += fmt::format("   [1st derivative {:.{}f}, 2nd derivative {:.{}f} mL]", e.first_derivative_mL.value_or(0), d,
-                       e.second_derivative_mL.value_or(0), d);
+    out += fmt::format("  Endpoint {}: {:.{}f} ± {:.{}f} mL at {} {:.{}f}",
+                       e.index,
+                       e.volume_mL,
+                       d,
+                       e.uncertainty_mL,
+                       d,
+                       to_string(c.signal),
+                       e.value,
+                       c.signal == SignalKind::ph ? 2 : 1);
+    out += fmt::format("   [1st derivative {:.{}f}, 2nd derivative {:.{}f} mL]",
+                       e.first_derivative_mL.value_or(0),
+                       d,
+                       e.second_derivative_mL.value_or(0),
+                       d);
     if (!e.flags.empty()) {
       out += "  flags:";
       for (const auto& f : e.flags) out += " " + f;
     }
     out += "\n";
     if (i < a.gran.size()) {
-      for (const auto* b : {a.gran[i].before ? &*a.gran[i].before : nullptr, a.gran[i].after ? &*a.gran[i].after : nullptr}) {
+      for (const auto* b :
+           {a.gran[i].before ? &*a.gran[i].before : nullptr, a.gran[i].after ? &*a.gran[i].after : nullptr}) {
         if (b == nullptr) continue;
-        out += fmt::format("      Gran {}: {:.{}f} ± {:.{}f} mL ({}, {} readings {:.2f}–{:.2f} mL, R² {:.5f}{})", b->after ? "after" : "before",
-                           b->volume_mL, d, b->uncertainty_mL, d, signal::to_string(b->function), b->points, b->window_from_mL,
-                           b->window_to_mL, b->r2, b->linear ? "" : ", not straight");
-        if (b->pKa) out += fmt::format("; pKa {:.2f}{}", *b->pKa, b->pKa_activity_corrected ? "" : " (not corrected for activity)");
+        out += fmt::format("      Gran {}: {:.{}f} ± {:.{}f} mL ({}, {} readings {:.2f}–{:.2f} mL, R² {:.5f}{})",
+                           b->after ? "after" : "before",
+                           b->volume_mL,
+                           d,
+                           b->uncertainty_mL,
+                           d,
+                           signal::to_string(b->function),
+                           b->points,
+                           b->window_from_mL,
+                           b->window_to_mL,
+                           b->r2,
+                           b->linear ? "" : ", not straight");
+        if (b->pKa)
+          out +=
+              fmt::format("; pKa {:.2f}{}", *b->pKa, b->pKa_activity_corrected ? "" : " (not corrected for activity)");
         out += "\n";
       }
       out += detail::endpoint_fit_line(a, e.index);
@@ -84,15 +131,20 @@ std::string to_text(const Analysis& a) {
     out += "  Method: " + a.results->method_name + "\n";
     for (const auto& r : a.results->results) {
       const int dd = r.decimals;
-      out += fmt::format("  Result: {} = {:.{}f} {}, U = {:.{}f} (k = 2)", r.name, r.value, dd, method::to_string(r.unit),
-                         r.expanded_uncertainty, dd);
-      if (r.at_pH) out += fmt::format("  [volume at pH {:g}: {:.3f} mL]", *r.at_pH, r.endpoint_volume_mL);
-      else out += fmt::format("  [endpoint {}, {} volume {:.4f} mL]", r.endpoint_index, r.volume_source, r.endpoint_volume_mL);
+      out += fmt::format("  Result: {} = {:.{}f} {}, U = {:.{}f} (k = 2)",
+                         r.name,
+                         r.value,
+                         dd,
+                         method::to_string(r.unit),
+                         r.expanded_uncertainty,
+                         dd);
+      if (r.at_pH)
+        out += fmt::format("  [volume at pH {:g}: {:.3f} mL]", *r.at_pH, r.endpoint_volume_mL);
+      else
+        out += fmt::format(
+            "  [endpoint {}, {} volume {:.4f} mL]", r.endpoint_index, r.volume_source, r.endpoint_volume_mL);
       if (!r.verdict.empty()) {
-        out += "  spec";
-        if (r.spec_low) out += fmt::format(" ≥ {:g}", *r.spec_low);
-        if (r.spec_high) out += fmt::format(" ≤ {:g}", *r.spec_high);
-        out += ": " + r.verdict;
+        out += "  spec " + spec_text(r.spec_low, r.spec_high, std::max(dd, 1)) + ": " + r.verdict;
       }
       out += "\n";
       out += "      " + r.formula + "; uncertainty budget:";
@@ -106,8 +158,12 @@ std::string to_text(const Analysis& a) {
     if (a.results->titer) {
       const auto& t = *a.results->titer;
       out += fmt::format("  Titrant {}: {:.5f} mol/L, standard uncertainty {:.5f}",
-                         t.titrant.empty() ? std::string("concentration") : t.titrant, t.concentration_mol_L, t.uncertainty_mol_L);
-      if (t.nominal_mol_L > 0) out += fmt::format(" (titer {:.4f} of the nominal {:g})", t.concentration_mol_L / t.nominal_mol_L, t.nominal_mol_L);
+                         t.titrant.empty() ? std::string("concentration") : t.titrant,
+                         t.concentration_mol_L,
+                         t.uncertainty_mol_L);
+      if (t.nominal_mol_L > 0)
+        out += fmt::format(
+            " (titer {:.4f} of the nominal {:g})", t.concentration_mol_L / t.nominal_mol_L, t.nominal_mol_L);
       out += "\n";
     }
   } else if (!a.results_error.empty()) {

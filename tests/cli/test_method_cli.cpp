@@ -59,7 +59,7 @@ TEST_CASE("veq method new writes a template that veq method check reads", "[cli]
   REQUIRE(veq_cli({"method", "new", "alkalinity", "-o", p.string()}).code == 0);
   const Out c = veq_cli({"method", "check", p.string()});
   CHECK(c.code == 0);
-  CHECK(c.out.find("mg/L as CaCO3 from the volume at pH 4.5") != std::string::npos);
+  CHECK(c.out.find("mg/L as CaCO3 from the volume where the curve crosses pH 4.5") != std::string::npos);
   CHECK(veq_cli({"method", "new", "alkalinity", "-o", p.string()}).code == veq::cli::kExitUsage);  // never overwritten
   CHECK(veq_cli({"method", "new", "colour"}).code == veq::cli::kExitUsage);
 }
