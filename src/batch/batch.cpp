@@ -2,10 +2,6 @@
 // The batch runner: a pool of workers over a sorted listing, per-run manifests, summaries rebuilt from them.
 #include "veq/batch/batch.hpp"
 
-#include <map>
-
-#include "veq/method/replicates.hpp"
-
 #include <fmt/format.h>
 #include <unistd.h>  // syncfs
 
@@ -13,6 +9,7 @@
 #include <atomic>
 #include <chrono>
 #include <condition_variable>
+#include <map>
 #include <mutex>
 #include <new>
 #include <thread>
@@ -20,6 +17,7 @@
 #include "batch/files.hpp"
 #include "batch/manifest.hpp"
 #include "veq/core/atomic_file.hpp"
+#include "veq/method/replicates.hpp"
 #include "veq/report/html.hpp"
 #include "veq/report/json.hpp"
 #include "veq/report/summary.hpp"
@@ -423,6 +421,7 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   struct Value {
     std::string group, result, unit, file;
     double value;
+    std::string source_xxh3;  // the file's content hash: the same file twice is one replicate
   };
   struct Pieces {
     std::string csv, json, index, errors;
@@ -449,9 +448,13 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
       if (row.contains("results") && row["results"].is_array()) {
         const std::string stem = fs::path(t.rel).stem().string();
         const std::string group = method::replicate_group(r.id, stem, options.replicate_pattern);
+        std::string xxh3;
+        if (mp != nullptr && mp->contains("source") && (*mp)["source"].is_object())
+          xxh3 = (*mp)["source"].value("xxh3", "");
         for (const auto& v : row["results"]) {
           if (v.contains("value") && v["value"].is_number()) {
-            p.values.push_back({group, v.value("name", ""), v.value("unit", ""), t.rel, v["value"].get<double>()});
+            p.values.push_back(
+                {group, v.value("name", ""), v.value("unit", ""), t.rel, v["value"].get<double>(), xxh3});
           }
         }
       }
@@ -510,16 +513,38 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   }
   // Replicate statistics: groups of two or more runs with the same result.
   io::AtomicFile reps_csv(out / kReplicatesCsv, true);
-  reps_csv.write("group,result,unit,n,mean,sd,rsd_percent,ci95_low,ci95_high,grubbs_G,grubbs_critical,outlier,rsd_acceptance\r\n");
+  reps_csv.write(
+      "group,result,unit,n,mean,sd,rsd_percent,ci95_low,ci95_high,grubbs_G,grubbs_critical,outlier,rsd_acceptance\r\n");
   ordered_json reps = ordered_json::array();
   std::vector<report::ReplicateRow> rep_rows;
-  for (const auto& [key, vals] : replicate_groups) {
+  for (const auto& [key, all_vals] : replicate_groups) {
+    // A file whose content equals an earlier member's (a copy under another name) is not a second
+    // measurement: it is listed as a duplicate and left out of the statistics.
+    std::vector<Value> vals;
+    std::vector<std::pair<std::string, std::string>> duplicates;  // (file, the member it repeats)
+    for (const auto& v : all_vals) {
+      const auto same = std::find_if(vals.begin(), vals.end(), [&](const Value& w) {
+        return !v.source_xxh3.empty() && w.source_xxh3 == v.source_xxh3;
+      });
+      if (same != vals.end())
+        duplicates.emplace_back(v.file, same->file);
+      else
+        vals.push_back(v);
+    }
+    for (const auto& [file, of] : duplicates) {
+      errors.write(fmt::format("{}: the same content as {}; not counted as a replicate of {} ({})  [replicates]\n",
+                               file,
+                               of,
+                               key.first,
+                               key.second));
+    }
     if (vals.size() < 2) continue;
     std::vector<double> x;
     for (const auto& v : vals) x.push_back(v.value);
     const method::ReplicateStats st = method::replicate_stats(x);
-    const std::string acceptance = !options.max_rsd_percent ? std::string()
-                                   : st.rsd_percent <= *options.max_rsd_percent ? "passed" : "failed";
+    const std::string acceptance = !options.max_rsd_percent                     ? std::string()
+                                   : st.rsd_percent <= *options.max_rsd_percent ? "passed"
+                                                                                : "failed";
     const std::string outlier = st.outlier ? vals[*st.outlier].file : std::string();
     ordered_json j;
     j["group"] = key.first;
@@ -537,18 +562,40 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
     ordered_json members = ordered_json::array();
     for (const auto& v : vals) members.push_back({{"file", v.file}, {"value", v.value}});
     j["members"] = members;
+    ordered_json dups = ordered_json::array();
+    for (const auto& d : duplicates) dups.push_back({{"file", d.first}, {"duplicate_of", d.second}});
+    j["duplicates"] = dups;
     reps.push_back(j);
     reps_csv.write(report::csv_field(key.first) + "," + report::csv_field(key.second) + "," +
                    report::csv_field(vals.front().unit) + "," +
-                   fmt::format("{},{:.8g},{:.4g},{:.4g},{:.8g},{:.8g},{:.4g},{:.4g},", st.n, st.mean, st.sd,
-                               st.rsd_percent, st.ci95_low, st.ci95_high, st.grubbs_G, st.grubbs_critical) +
+                   fmt::format("{},{:.8g},{:.4g},{:.4g},{:.8g},{:.8g},{:.4g},{:.4g},",
+                               st.n,
+                               st.mean,
+                               st.sd,
+                               st.rsd_percent,
+                               st.ci95_low,
+                               st.ci95_high,
+                               st.grubbs_G,
+                               st.grubbs_critical) +
                    report::csv_field(outlier) + "," + report::csv_field(acceptance) + "\r\n");
-    rep_rows.push_back({key.first, key.second, vals.front().unit, st.n, st.mean, st.sd, st.rsd_percent, st.ci95_low,
-                        st.ci95_high, outlier, acceptance});
+    rep_rows.push_back({key.first,
+                        key.second,
+                        vals.front().unit,
+                        st.n,
+                        st.mean,
+                        st.sd,
+                        st.rsd_percent,
+                        st.ci95_low,
+                        st.ci95_high,
+                        outlier,
+                        acceptance});
     if (acceptance == "failed") {
       ++summary.replicate_failures;
       errors.write(fmt::format("replicates of {} ({}): RSD {:.2f} % above the method's limit {:g} %  [replicates]\n",
-                               key.first, key.second, st.rsd_percent, *options.max_rsd_percent));
+                               key.first,
+                               key.second,
+                               st.rsd_percent,
+                               *options.max_rsd_percent));
     }
   }
   json.write(tasks.empty() ? "],\n  \"replicates\": " : "\n  ],\n  \"replicates\": ");

@@ -2,10 +2,9 @@
 // Replicate statistics (Boost.Math Student's t) and Grubbs' test.
 #include "veq/method/replicates.hpp"
 
+#include <boost/math/distributions/students_t.hpp>
 #include <cmath>
 #include <regex>
-
-#include <boost/math/distributions/students_t.hpp>
 
 #include "veq/core/error.hpp"
 
@@ -36,13 +35,13 @@ ReplicateStats replicate_stats(std::span<const double> x, double alpha) {
   const double half = t * s.sd / std::sqrt(static_cast<double>(s.n));
   s.ci95_low = s.mean - half;
   s.ci95_high = s.mean + half;
-  if (s.n >= 3 && s.sd > 0) {
+  if (s.n >= 3) s.grubbs_critical = grubbs_critical(s.n, alpha);
+  if (s.n >= 3 && s.sd > 0) {  // identical values: no outlier, G = 0
     std::size_t far = 0;
     for (std::size_t i = 1; i < s.n; ++i) {
       if (std::fabs(x[i] - s.mean) > std::fabs(x[far] - s.mean)) far = i;
     }
     s.grubbs_G = std::fabs(x[far] - s.mean) / s.sd;
-    s.grubbs_critical = grubbs_critical(s.n, alpha);
     if (s.grubbs_G > s.grubbs_critical) s.outlier = far;
   }
   return s;

@@ -302,6 +302,9 @@ TEST_CASE("veq batch with a method: results and replicate statistics in the summ
   write_run("a2.csv", "LOT-7", 2.0);
   write_run("a3.csv", "LOT-7", 3.0);
   write_run("b1.csv", "LOT-8", 4.0);
+  // A copy of a1 under another name: the same measurement, not a fourth replicate (common practice,
+  // no source: a replicate is a separate portion titrated again).
+  fs::copy_file(root / "in" / "a1.csv", root / "in" / "a1_copy.csv");
   veq::test::write_file(root / "m.toml",
                         "name = \"acid\"\n[sample]\nvolume_mL = 20\n[titrant]\nconcentration_mol_L = 0.1\n"
                         "[[result]]\nname = \"HCl\"\nunit = \"mol/L\"\n[acceptance]\nmax_rsd_percent = 0.5\n");
@@ -315,6 +318,10 @@ TEST_CASE("veq batch with a method: results and replicate statistics in the summ
   const auto& g = summary["replicates"][0];
   CHECK(g["group"] == "LOT-7");
   CHECK(g["n"] == 3);
+  REQUIRE(g["duplicates"].size() == 1);
+  CHECK(g["duplicates"][0]["file"] == "a1_copy.csv");
+  CHECK(g["duplicates"][0]["duplicate_of"] == "a1.csv");
+  CHECK(slurp(root / "out" / "errors.txt").find("a1_copy.csv: the same content as a1.csv") != std::string::npos);
   CHECK(std::fabs(g["mean"].get<double>() - 0.1) < 1e-3);  // 0.1 mol/L HCl (stoichiometry)
   CHECK(g["rsd_acceptance"] == "passed");
   CHECK(slurp(root / "out" / "replicates.csv").find("LOT-7,HCl,mol/L,3,") != std::string::npos);
