@@ -66,7 +66,7 @@ int main(int argc, char** argv) {
   int missed_total = 0, total = 0;
   for (const Kind& k : kinds) {
     std::vector<double> e_cons, e_der, e_plain;
-    int missed = 0, eps = 0;
+    int missed = 0, eps = 0, with_fit = 0;
     for (int r = 0; r < runs / static_cast<int>(kinds.size()); ++r) {
       chem::SimulationOptions so;
       so.sample.volume_mL = 10.0 + 40.0 * u(rng);
@@ -122,13 +122,16 @@ int main(int argc, char** argv) {
           continue;
         }
         e_cons.push_back(100.0 * std::fabs(found->volume_mL - ep.volume_mL) / ep.volume_mL);
+        if (std::find(found->consensus_methods.begin(), found->consensus_methods.end(), "fit") !=
+            found->consensus_methods.end())
+          ++with_fit;
         e_der.push_back(100.0 * std::fabs(found->derivative_volume_mL - ep.volume_mL) / ep.volume_mL);
         e_plain.push_back(100.0 * std::fabs(plain_endpoint(v, y, ep.volume_mL, w) - ep.volume_mL) / ep.volume_mL);
       }
     }
-    std::printf("%-18s %5d | %12.4f %13.4f | %12.4f %13.4f | %12.4f %13.4f   missed %d\n", k.name, eps,
-                percentile(e_cons, 0.5), percentile(e_cons, 0.95), percentile(e_der, 0.5), percentile(e_der, 0.95),
-                percentile(e_plain, 0.5), percentile(e_plain, 0.95), missed);
+    std::printf("%-18s %5d | %12.4f %13.4f | %12.4f %13.4f | %12.4f %13.4f   missed %d, fit in the consensus %d\n",
+                k.name, eps, percentile(e_cons, 0.5), percentile(e_cons, 0.95), percentile(e_der, 0.5),
+                percentile(e_der, 0.95), percentile(e_plain, 0.5), percentile(e_plain, 0.95), missed, with_fit);
     missed_total += missed;
     total += eps;
   }
