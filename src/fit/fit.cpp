@@ -1596,6 +1596,7 @@ indicators::PhCurve fitted_curve(const FitSummary& fit, const Curve& curve) {
     // Not expected inside the fitted range; the nearest knot keeps the curve finite.
     return pH[std::min(i, pH.size() - 1)];
   };
+  c.mL_at_pH = [titration](double pH) { return titration->volume_at_pH(pH); };
   c.direction = fit.chemistry.titrant_sign > 0 ? +1 : -1;
   c.method = "model";
   c.exact = true;

@@ -149,6 +149,14 @@ Crossing find_crossing(const PhCurve& curve, double target_pH) {
     out.volume_mL = b;
     return out;
   }
+  // A model with a closed-form inverse: the volume at the target pH, when it falls in the bracket.
+  if (curve.mL_at_pH) {
+    const double v = curve.mL_at_pH(target_pH);
+    if (std::isfinite(v) && v >= a && v <= b) {
+      out.volume_mL = v;
+      return out;
+    }
+  }
   // Bracketed root of the curve itself (for the interpolated curve this is
   // the straight line between the two readings; for a model, the model).
   try {
@@ -225,9 +233,11 @@ ColourChange judge(const Indicator& indicator,
                     t.end_pH));
   } else if (cc.seen_mL && begin.status == CrossingStatus::past_at_start) {
     const double first = curve.knots_mL.empty() ? t.begin_pH : curve.pH_at_mL(curve.knots_mL.front());
-    notes.push_back(fmt::format("the change begins at pH {:.1f}, before the first reading (pH {:.2f}), so its span "
-                                "is not known",
-                                t.begin_pH, first));
+    notes.push_back(
+        fmt::format("the change begins at pH {:.1f}, before the first reading (pH {:.2f}), so its span "
+                    "is not known",
+                    t.begin_pH,
+                    first));
   }
 
   if (cc.error_percent) {
@@ -246,7 +256,8 @@ ColourChange judge(const Indicator& indicator,
       }
     }
     // Only when the uncertainty could turn the verdict (the interval straddles the tolerance).
-    if (*cc.error_uncertainty_percent > cc.tolerance_percent && err - *cc.error_uncertainty_percent < cc.tolerance_percent) {
+    if (*cc.error_uncertainty_percent > cc.tolerance_percent &&
+        err - *cc.error_uncertainty_percent < cc.tolerance_percent) {
       notes.push_back(
           fmt::format("the readings resolve the error only to ±{:.2f} %, more than the tolerance; finer "
                       "dosing near the endpoint would settle the verdict",

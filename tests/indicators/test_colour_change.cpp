@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <catch2/catch.hpp>
 #include <cmath>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -10,6 +11,9 @@
 #include "support/approx.hpp"
 #include "support/charge_balance.hpp"
 #include "veq/analyze.hpp"
+#include "veq/chem/analytes.hpp"
+#include "veq/chem/equilibrium.hpp"
+#include "veq/chem/sample.hpp"
 #include "veq/indicators/colour_change.hpp"
 #include "veq/indicators/table.hpp"
 #include "veq/report/json.hpp"
@@ -366,4 +370,40 @@ TEST_CASE("default options are pinned: indicators", "[options][indicators]") {
   ao.indicators = bad;
   CHECK_THROWS_AS(veq::analyze(veq::test::model_run(veq::test::strong_acid_with_base(20.0), {0, 1, 2}), ao),
                   veq::InputError);
+}
+
+TEST_CASE("a model's closed-form inverse gives the crossing the root search finds", "[indicators]") {
+  // Acetic acid 0.1 mol/L (pKa 4.756, CRC Handbook, "Dissociation constants of organic acids in aqueous
+  // solution"), 25 mL with 0.1 mol/L NaOH, Davies: V(pH) closed form against a bracketed root of pH(V).
+  veq::chem::Sample sample;
+  sample.volume_mL = 25.0;
+  sample.analytes.push_back(veq::chem::analyte("acetic acid", 0.1));
+  const auto titration =
+      std::make_shared<const veq::chem::Titration<double>>(veq::chem::build_model(sample, veq::chem::Titrant{}));
+  veq::indicators::PhCurve c;
+  for (int i = 0; i <= 60; ++i) {
+    c.knots_mL.push_back(0.5 * i);
+    c.knots_pH.push_back(titration->pH(0.5 * i));
+  }
+  c.pH_at_mL = [titration](double v) { return titration->pH(v); };
+  c.direction = +1;
+  c.exact = true;
+  veq::indicators::PhCurve closed = c;
+  closed.mL_at_pH = [titration](double pH) { return titration->volume_at_pH(pH); };
+  for (double target : {3.5, 4.756, 8.2, 9.3, 10.0, 11.0}) {
+    CAPTURE(target);
+    const auto a = veq::indicators::find_crossing(c, target);
+    const auto b = veq::indicators::find_crossing(closed, target);
+    REQUIRE(a.status == veq::indicators::CrossingStatus::found);
+    REQUIRE(b.status == veq::indicators::CrossingStatus::found);
+    REQUIRE(a.volume_mL);
+    REQUIRE(b.volume_mL);
+    CHECK(std::fabs(*a.volume_mL - *b.volume_mL) <= 1e-7 * *b.volume_mL);
+  }
+  // Henderson-Hasselbalch (textbook): half way to the equivalence point the pH is near the pKa (Davies
+  // lowers it by about 0.1 at this ionic strength), so pH 4.756 is crossed a little after 12.5 mL.
+  const auto half = veq::indicators::find_crossing(closed, 4.756);
+  REQUIRE(half.volume_mL);
+  CHECK(*half.volume_mL > 12.5);
+  CHECK(*half.volume_mL < 16.0);
 }

@@ -58,10 +58,13 @@ struct IndicatorOptions {
 // enough that the curve is monotonic between neighbours.
 struct PhCurve {
   std::function<double(double)> pH_at_mL;  // pH at a titrant volume [mL] -> [pH]
-  std::vector<double> knots_mL;            // ascending volumes [mL]
-  std::vector<double> knots_pH;            // pH_at_mL at each knot when precomputed (same size), else empty [pH]
-  int direction = +1;                      // +1: pH rises with volume (base titrant); -1: falls (acid titrant)
-  std::string method;                      // "interpolated" or "model": reported with the results
+  // A model's inverse, volume at a pH [pH] -> [mL], when it has a closed form (empty otherwise): a
+  // crossing is then one evaluation instead of a root search; the root search checks it.
+  std::function<double(double)> mL_at_pH;
+  std::vector<double> knots_mL;  // ascending volumes [mL]
+  std::vector<double> knots_pH;  // pH_at_mL at each knot when precomputed (same size), else empty [pH]
+  int direction = +1;            // +1: pH rises with volume (base titrant); -1: falls (acid titrant)
+  std::string method;            // "interpolated" or "model": reported with the results
   // false for readings: a crossing is only known to lie between the two
   // readings that bracket it, standard uncertainty (b - a)/sqrt(12)
   // (rectangular distribution, JCGM 100:2008 4.3.7); true for a model, whose
