@@ -2,17 +2,16 @@
 // Method files (TOML, via toml++): strict reading with file:line errors naming the key.
 #include "veq/method/method.hpp"
 
+#include <fmt/format.h>
+#include <toml++/toml.h>
+#include <xxhash.h>
+
 #include <algorithm>
 #include <cmath>
 #include <fstream>
 #include <map>
 #include <set>
 #include <sstream>
-
-#include <fmt/format.h>
-#include <xxhash.h>
-
-#include <toml++/toml.h>
 
 #include "veq/core/error.hpp"
 #include "veq/method/titer.hpp"
@@ -108,8 +107,10 @@ class TableReader {
       for (const auto& u : m_used) {
         if (near.empty() && u.size() > 3 && key.rfind(u.substr(0, 4), 0) == 0) near = u;
       }
-      fail(k.source().begin.line, "unknown key '" + where(key) + "'",
-           near.empty() ? "see the README section \"Method files\" for the keys" : "did you mean '" + where(near) + "'?");
+      fail(k.source().begin.line,
+           "unknown key '" + where(key) + "'",
+           near.empty() ? "see the README section \"Method files\" for the keys"
+                        : "did you mean '" + where(near) + "'?");
     }
   }
   [[nodiscard]] const toml::table& table() const { return m_t; }
@@ -139,13 +140,20 @@ std::string hash_hex(std::string_view bytes) {
 
 std::string_view to_string(ResultUnit u) {
   switch (u) {
-    case ResultUnit::mol_L: return "mol/L";
-    case ResultUnit::g_L: return "g/L";
-    case ResultUnit::mg_L: return "mg/L";
-    case ResultUnit::percent_w_w: return "% (w/w)";
-    case ResultUnit::mg_L_CaCO3: return "mg/L as CaCO3";
-    case ResultUnit::mg_KOH_per_g: return "mg KOH/g";
-    case ResultUnit::titrant_mol_L: return "mol/L titrant";
+    case ResultUnit::mol_L:
+      return "mol/L";
+    case ResultUnit::g_L:
+      return "g/L";
+    case ResultUnit::mg_L:
+      return "mg/L";
+    case ResultUnit::percent_w_w:
+      return "% (w/w)";
+    case ResultUnit::mg_L_CaCO3:
+      return "mg/L as CaCO3";
+    case ResultUnit::mg_KOH_per_g:
+      return "mg KOH/g";
+    case ResultUnit::titrant_mol_L:
+      return "mol/L titrant";
   }
   return "mol/L";
 }
@@ -164,10 +172,14 @@ std::optional<ResultUnit> unit_from_string(std::string_view text) {
 
 std::string_view to_string(VolumeSource s) {
   switch (s) {
-    case VolumeSource::consensus: return "consensus";
-    case VolumeSource::derivative: return "derivative";
-    case VolumeSource::gran: return "gran";
-    case VolumeSource::fit: return "fit";
+    case VolumeSource::consensus:
+      return "consensus";
+    case VolumeSource::derivative:
+      return "derivative";
+    case VolumeSource::gran:
+      return "gran";
+    case VolumeSource::fit:
+      return "fit";
   }
   return "consensus";
 }
@@ -190,7 +202,8 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
     const toml::node* n = root.get(key);
     if (n == nullptr) return std::nullopt;
     const toml::table* t = n->as_table();
-    if (t == nullptr) top.fail(n->source().begin.line, "'" + std::string(key) + "' must be a table ([" + std::string(key) + "])");
+    if (t == nullptr)
+      top.fail(n->source().begin.line, "'" + std::string(key) + "' must be a table ([" + std::string(key) + "])");
     return TableReader(*t, std::string(key), name, n->source().begin.line);
   };
 
@@ -234,7 +247,8 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
       try {
         const TiterRecord rec = load_titer(p);
         if (m.titrant_conc_mol_L) {
-          t->fail(t->line_of("titer_file"), "give either 'titrant.concentration_mol_L' or 'titrant.titer_file', not both");
+          t->fail(t->line_of("titer_file"),
+                  "give either 'titrant.concentration_mol_L' or 'titrant.titer_file', not both");
         }
         m.titrant_conc_mol_L = rec.concentration_mol_L;
         m.titrant_conc_u_mol_L = rec.uncertainty_mol_L;
@@ -262,7 +276,9 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
     m.standard_mass_u_g = s->uncertainty("mass", "_g");
     double purity = s->positive("purity", 1.0);
     if (purity > 1.0 && purity <= 100.0) purity /= 100.0;  // written as a percentage
-    if (purity > 1.0) s->fail(s->line_of("purity"), fmt::format("'standard.purity' = {:g}: expected a fraction (0-1) or a percentage", purity));
+    if (purity > 1.0)
+      s->fail(s->line_of("purity"),
+              fmt::format("'standard.purity' = {:g}: expected a fraction (0-1) or a percentage", purity));
     m.standard_purity = purity;
     double pu = s->non_negative("purity_uncertainty", 0.0);
     if (pu > 0.5) pu /= 100.0;
@@ -270,7 +286,8 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
     m.standard_molar_mass_g_mol = s->positive("molar_mass_g_mol");
     m.standard_molar_mass_u_g_mol = s->uncertainty("molar_mass", "_g_mol");
     if (!m.standard_molar_mass_g_mol) {
-      s->fail(s->line_of("molar_mass_g_mol"), "missing key 'standard.molar_mass_g_mol'",
+      s->fail(s->line_of("molar_mass_g_mol"),
+              "missing key 'standard.molar_mass_g_mol'",
               "e.g. molar_mass_g_mol = 204.22 for potassium hydrogen phthalate");
     }
     s->reject_unknown();
@@ -278,7 +295,8 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
   if (auto a = sub("acceptance")) {
     if (auto r = a->positive("max_rsd_percent")) m.max_rsd_percent = r;
     if (auto n = a->number("endpoints_required")) {
-      if (*n < 1 || *n != std::floor(*n)) a->fail(a->line_of("endpoints_required"), "'acceptance.endpoints_required' must be a whole number from 1");
+      if (*n < 1 || *n != std::floor(*n))
+        a->fail(a->line_of("endpoints_required"), "'acceptance.endpoints_required' must be a whole number from 1");
       m.endpoints_required = static_cast<int>(*n);
     }
     a->reject_unknown();
@@ -290,7 +308,8 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
       r->fail(r->line_of("group_by"), "'replicates.group_by' = '" + m.group_by + "': expected sample_id or pattern");
     }
     if (m.group_by == "pattern" && m.group_pattern.empty()) {
-      r->fail(r->line_of("group_by"), "missing key 'replicates.pattern' (group_by = \"pattern\")",
+      r->fail(r->line_of("group_by"),
+              "missing key 'replicates.pattern' (group_by = \"pattern\")",
               "e.g. pattern = \"^(.*)_r[0-9]+$\": the first capture is the group");
     }
     r->reject_unknown();
@@ -300,11 +319,13 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
   (void)top.has("result");
   const toml::node* results = root.get("result");
   if (results == nullptr) {
-    top.fail(1, "missing [[result]]: a method reports at least one result",
+    top.fail(1,
+             "missing [[result]]: a method reports at least one result",
              "add e.g.\n  [[result]]\n  name = \"Total alkalinity\"\n  unit = \"mg/L as CaCO3\"\n  at_pH = 4.5");
   }
   const toml::array* arr = results->as_array();
-  if (arr == nullptr) top.fail(results->source().begin.line, "'result' must be written [[result]] (an array of tables)");
+  if (arr == nullptr)
+    top.fail(results->source().begin.line, "'result' must be written [[result]] (an array of tables)");
   for (const toml::node& node : *arr) {
     const toml::table* t = node.as_table();
     if (t == nullptr) top.fail(node.source().begin.line, "each [[result]] must be a table");
@@ -314,32 +335,45 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
     spec.name = r.text("name").value_or(m.name);
     const auto unit = r.text("unit");
     if (!unit) {
-      r.fail(spec.line, "missing key 'result.unit'",
+      r.fail(spec.line,
+             "missing key 'result.unit'",
              "one of: mol/L, g/L, mg/L, % (w/w), mg/L as CaCO3, mg KOH/g, mol/L titrant");
     }
     const auto u = unit_from_string(*unit);
     if (!u) {
-      r.fail(r.line_of("unit"), "'result.unit' = '" + *unit + "' is not a unit veq reports",
+      r.fail(r.line_of("unit"),
+             "'result.unit' = '" + *unit + "' is not a unit veq reports",
              "one of: mol/L, g/L, mg/L, % (w/w), mg/L as CaCO3, mg KOH/g, mol/L titrant");
     }
     spec.unit = *u;
     if (r.has("endpoint")) {
       const toml::node* e = t->get("endpoint");
-      if (auto i = e->value<int64_t>()) {
-        if (*i < 1) r.fail(e->source().begin.line, "'result.endpoint' must be 1 or more, \"first\" or \"last\"");
-        spec.endpoint.index = static_cast<int>(*i);
+      // An integer node only: toml++'s value<int64_t>() would also convert a float, and one out of range
+      // (7e107, found by fuzzing) is undefined behaviour.
+      if (e->is_floating_point()) {
+        r.fail(e->source().begin.line, "'result.endpoint' must be a whole number (1, 2, ...), \"first\" or \"last\"");
+      } else if (const auto* in = e->as_integer()) {
+        const int64_t i = in->get();
+        if (i < 1 || i > 100)
+          r.fail(e->source().begin.line, "'result.endpoint' must be 1 to 100, \"first\" or \"last\"");
+        spec.endpoint.index = static_cast<int>(i);
         spec.endpoint.last = false;
       } else if (auto s = e->value<std::string>()) {
-        if (*s == "last") spec.endpoint.last = true;
-        else if (*s == "first") spec.endpoint.index = 1, spec.endpoint.last = false;
-        else r.fail(e->source().begin.line, "'result.endpoint' = '" + *s + "': expected a number, \"first\" or \"last\"");
+        if (*s == "last")
+          spec.endpoint.last = true;
+        else if (*s == "first")
+          spec.endpoint.index = 1, spec.endpoint.last = false;
+        else
+          r.fail(e->source().begin.line, "'result.endpoint' = '" + *s + "': expected a number, \"first\" or \"last\"");
       } else {
         r.fail(e->source().begin.line, "'result.endpoint' must be a number, \"first\" or \"last\"");
       }
     }
     if (auto p = r.number("at_pH")) {
-      if (*p < 0 || *p > 14) r.fail(r.line_of("at_pH"), fmt::format("'result.at_pH' = {:g}: expected a pH from 0 to 14", *p));
-      if (t->contains("endpoint")) r.fail(r.line_of("at_pH"), "give either 'result.endpoint' or 'result.at_pH', not both");
+      if (*p < 0 || *p > 14)
+        r.fail(r.line_of("at_pH"), fmt::format("'result.at_pH' = {:g}: expected a pH from 0 to 14", *p));
+      if (t->contains("endpoint"))
+        r.fail(r.line_of("at_pH"), "give either 'result.endpoint' or 'result.at_pH', not both");
       spec.endpoint.at_pH = p;
     }
     if (auto s = r.text("volume_from")) spec.endpoint.source = source_from(*s, r, r.line_of("volume_from"));
@@ -355,13 +389,16 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
     }
     r.reject_unknown();
     // What the unit needs from the method (sample amounts may also come from the run).
-    const bool needs_M = spec.unit == ResultUnit::g_L || spec.unit == ResultUnit::mg_L || spec.unit == ResultUnit::percent_w_w;
+    const bool needs_M =
+        spec.unit == ResultUnit::g_L || spec.unit == ResultUnit::mg_L || spec.unit == ResultUnit::percent_w_w;
     if (needs_M && !m.molar_mass_g_mol) {
-      r.fail(spec.line, "missing key 'analyte.molar_mass_g_mol' (result unit " + std::string(to_string(spec.unit)) + ")",
+      r.fail(spec.line,
+             "missing key 'analyte.molar_mass_g_mol' (result unit " + std::string(to_string(spec.unit)) + ")",
              "add [analyte] molar_mass_g_mol = ...");
     }
     if (spec.unit == ResultUnit::titrant_mol_L && !m.standardisation) {
-      r.fail(spec.line, "missing table [standard] (result unit mol/L titrant is a standardisation)",
+      r.fail(spec.line,
+             "missing table [standard] (result unit mol/L titrant is a standardisation)",
              "add [standard] with name, mass_g (or the run's sample mass), purity and molar_mass_g_mol");
     }
     m.results.push_back(spec);

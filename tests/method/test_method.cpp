@@ -1,7 +1,6 @@
 // SPDX-License-Identifier: MIT
 // Methods, results, uncertainty budgets, titers and replicates against published values.
 #include <catch2/catch.hpp>
-
 #include <cmath>
 #include <filesystem>
 #include <fstream>
@@ -71,7 +70,7 @@ name = "T"
 unit = "mg/L as CaCO3"
 at_pH = 4.5
 )",
-                                                         "alk.toml");
+                                                          "alk.toml");
   veq::AnalyzeOptions o;
   o.method = m;
   const veq::Analysis a = veq::analyze(r, o);
@@ -228,8 +227,17 @@ TEST_CASE("bad method files name the key and the line", "[method][bad]") {
     const auto e = method_error("name = \"x\n");
     CHECK(e.where().line == 1);
   }
+  SECTION("an endpoint number that is not a whole number (regression: fuzz_method found 7e107 undefined)") {
+    const auto e =
+        method_error("name = \"x\"\n[[result]]\nunit = \"mol/L\"\nendpoint = 7" + std::string(106, '0') + ".0\n");
+    CHECK(e.where().line == 4);
+    CHECK(e.message().find("whole number") != std::string::npos);
+    const auto big = method_error("name = \"x\"\n[[result]]\nunit = \"mol/L\"\nendpoint = 9000000000\n");
+    CHECK(big.message().find("1 to 100") != std::string::npos);
+  }
   SECTION("a titer file that is missing") {
-    const auto e = method_error("name = \"x\"\n[titrant]\ntiter_file = \"/nonexistent/t.toml\"\n[[result]]\nunit = \"mol/L\"\n");
+    const auto e =
+        method_error("name = \"x\"\n[titrant]\ntiter_file = \"/nonexistent/t.toml\"\n[[result]]\nunit = \"mol/L\"\n");
     CHECK(e.where().line == 3);
     CHECK(e.message().find("titer_file") != std::string::npos);
   }
@@ -248,7 +256,8 @@ TEST_CASE("a method the run cannot satisfy fails the result, not the endpoints",
     r.line.push_back(static_cast<std::uint32_t>(i + 1));
   }
   veq::AnalyzeOptions o;
-  o.method = veq::method::parse_method("name = \"x\"\n[titrant]\nconcentration_mol_L = 0.1\n[[result]]\nunit = \"mol/L\"\n", "m.toml");
+  o.method = veq::method::parse_method(
+      "name = \"x\"\n[titrant]\nconcentration_mol_L = 0.1\n[[result]]\nunit = \"mol/L\"\n", "m.toml");
   const veq::Analysis a = veq::analyze(r, o);
   CHECK(a.endpoints.endpoints.size() == 1);
   CHECK_FALSE(a.results.has_value());
@@ -286,4 +295,19 @@ TEST_CASE("spec verdicts: pass, fail, borderline within the expanded uncertainty
   CHECK(verdict("spec_low = 0.11\nspec_high = 0.12\n") == "fail");
   CHECK(verdict("spec_high = 0.1001\n") == "borderline");
   CHECK(verdict("") == "");
+}
+
+TEST_CASE("inputs the fuzzer found stay clear errors (tests/data/fuzz_regressions)", "[method][bad]") {
+  // Every method-file input that once crashed or misbehaved under fuzz_method: now an InputError
+  // with a line, never undefined behaviour (the sanitizer build runs this too).
+  int seen = 0;
+  for (const auto& entry : std::filesystem::directory_iterator(VEQ_TEST_DATA "/fuzz_regressions")) {
+    if (entry.path().extension() != ".toml") continue;
+    ++seen;
+    std::ifstream in(entry.path(), std::ios::binary);
+    const std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+    CAPTURE(entry.path().filename().string());
+    CHECK_THROWS_AS(veq::method::parse_method(text, entry.path().filename().string()), veq::InputError);
+  }
+  CHECK(seen >= 1);
 }
