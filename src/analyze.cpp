@@ -24,6 +24,25 @@ fit::FitOptions fit_options_for(const AnalyzeOptions& options, const Run& run) {
   return fo;
 }
 
+// The sample volume and titrant concentration the chemistry stages use: what a method states wins over
+// the file's metadata (the command line has already overridden the method), and a method's titer factor
+// applies. A standardisation determines the titrant, so its nominal concentration stays.
+struct UsedFacts {
+  std::optional<double> sample_volume_mL;
+  std::optional<double> titrant_conc_mol_L;
+};
+UsedFacts used_facts(const AnalyzeOptions& options, const Run& run) {
+  UsedFacts u{run.facts.sample_volume_mL, run.facts.titrant_conc_mol_L};
+  if (!options.method) return u;
+  const method::Method& m = *options.method;
+  if (m.sample_volume_mL) u.sample_volume_mL = m.sample_volume_mL;
+  if (!m.standardisation) {
+    if (m.titrant_conc_mol_L) u.titrant_conc_mol_L = m.titrant_conc_mol_L;
+    if (u.titrant_conc_mol_L) *u.titrant_conc_mol_L *= m.titer;
+  }
+  return u;
+}
+
 }  // namespace
 
 std::vector<std::string> AnalyzeOptions::validate() const {
@@ -46,9 +65,12 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
   a.warnings.insert(a.warnings.end(), a.curve.warnings.begin(), a.curve.warnings.end());
   a.warnings.insert(a.warnings.end(), a.endpoints.warnings.begin(), a.endpoints.warnings.end());
 
+  const UsedFacts used = used_facts(options, run);
+  a.used_sample_volume_mL = used.sample_volume_mL;
+  a.used_titrant_conc_mol_L = used.titrant_conc_mol_L;
   signal::GranInputs gi;
-  gi.sample_volume_mL = run.facts.sample_volume_mL;
-  gi.titrant_conc_mol_L = run.facts.titrant_conc_mol_L;
+  gi.sample_volume_mL = used.sample_volume_mL;
+  gi.titrant_conc_mol_L = used.titrant_conc_mol_L;
   gi.temperature_C = a.curve.temperature_C;
   signal::GranOptions gran = options.gran;
   if (!gran.analyte_charge && options.method && options.method->analyte_charge) {
@@ -63,8 +85,8 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
     e.uncertainty_mL = c.uncertainty_mL;
   }
   fit::FitInputs fi;
-  fi.sample_volume_mL = run.facts.sample_volume_mL.value_or(0.0);
-  fi.titrant_conc_mol_L = run.facts.titrant_conc_mol_L.value_or(0.0);
+  fi.sample_volume_mL = used.sample_volume_mL.value_or(0.0);
+  fi.titrant_conc_mol_L = used.titrant_conc_mol_L.value_or(0.0);
   fi.titrant = run.facts.titrant_kind;
   fi.temperature_C = a.curve.temperature_C;
   a.fit = fit::fit_titration(a.curve, fi, a.endpoints.endpoints, a.gran, fit_options_for(options, run));
@@ -92,7 +114,8 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
     e.consensus_methods = c.methods;
     e.consensus_left_out = c.left_out;
     if (c.disagree) e.flags.emplace_back(signal::kFlagMethodsDisagree);
-    if ((g.before && !g.before->linear) || (g.after && !g.after->linear)) e.flags.emplace_back(signal::kFlagGranNonlinear);
+    if ((g.before && !g.before->linear) || (g.after && !g.after->linear))
+      e.flags.emplace_back(signal::kFlagGranNonlinear);
   }
   // Indicators judge the consensus endpoint volumes, on the fitted model's curve when the fit is usable
   // (for a run in mV without calibration the model also gives the endpoint's pH).
@@ -126,6 +149,8 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
   return a;
 }
 
-std::string version() { return VEQ_VERSION; }
+std::string version() {
+  return VEQ_VERSION;
+}
 
 }  // namespace veq

@@ -36,13 +36,17 @@ struct AnalyzeOptions {
 struct Analysis {
   Run run;
   Curve curve;
-  signal::EndpointResult endpoints;  // volume_mL of each is the consensus of its methods
-  std::vector<signal::GranEndpoint> gran;  // one per endpoint (empty branches when skipped)
-  fit::FitResult fit;                      // the charge-balance fit (status not_run when skipped)
-  indicators::IndicatorResult indicators;  // per endpoint: indicators that change colour there
+  signal::EndpointResult endpoints;          // volume_mL of each is the consensus of its methods
+  std::vector<signal::GranEndpoint> gran;    // one per endpoint (empty branches when skipped)
+  fit::FitResult fit;                        // the charge-balance fit (status not_run when skipped)
+  indicators::IndicatorResult indicators;    // per endpoint: indicators that change colour there
   std::optional<method::ResultSet> results;  // when a method was given
-  std::string results_error;               // why the method's results could not be computed ("" if they were)
-  std::vector<Diagnostic> warnings;  // run, curve, endpoint, Gran, fit and indicator warnings, in that order
+  std::string results_error;                 // why the method's results could not be computed ("" if they were)
+  std::vector<Diagnostic> warnings;          // run, curve, endpoint, Gran, fit and indicator warnings, in that order
+  // The sample volume [mL] and titrant concentration [mol/L, titer applied] Gran and the fit used: the
+  // method's when it states them, else the run's.
+  std::optional<double> used_sample_volume_mL;
+  std::optional<double> used_titrant_conc_mol_L;
 };
 
 // Runs prepare, derivative endpoints, Gran, the charge-balance fit, the

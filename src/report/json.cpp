@@ -4,7 +4,6 @@
 
 #include <cmath>
 #include <map>
-
 #include <nlohmann/json.hpp>
 
 #include "report/fit_sections.hpp"
@@ -80,8 +79,10 @@ ordered_json result_json(const method::Result& r) {
   spec["verdict"] = r.verdict.empty() ? ordered_json(nullptr) : ordered_json(r.verdict);
   j["spec"] = spec;
   ordered_json ep;
-  if (r.at_pH) ep["at_pH"] = number(*r.at_pH, 3);
-  else ep["index"] = r.endpoint_index;
+  if (r.at_pH)
+    ep["at_pH"] = number(*r.at_pH, 3);
+  else
+    ep["index"] = r.endpoint_index;
   ep["volume_mL"] = number(r.endpoint_volume_mL, 6);
   ep["source"] = r.volume_source;
   j["endpoint"] = ep;
@@ -104,11 +105,16 @@ ordered_json result_json(const method::Result& r) {
 
 std::string separator_name(char sep) {
   switch (sep) {
-    case ',': return "comma";
-    case ';': return "semicolon";
-    case '\t': return "tab";
-    case '|': return "bar";
-    default: return "spaces";
+    case ',':
+      return "comma";
+    case ';':
+      return "semicolon";
+    case '\t':
+      return "tab";
+    case '|':
+      return "bar";
+    default:
+      return "spaces";
   }
 }
 
@@ -141,6 +147,9 @@ std::string to_json(const Analysis& a) {
   facts["titrant_kind"] = std::string(to_string(run.facts.titrant_kind));
   if (run.facts.titrant_conc_mol_L) facts["titrant_conc_mol_L"] = significant(*run.facts.titrant_conc_mol_L, 8);
   if (run.facts.temperature_C) facts["temperature_C"] = number(*run.facts.temperature_C, 3);
+  // What Gran and the fit used: a method's sample volume and titrant concentration (titer applied) win.
+  if (a.used_sample_volume_mL) facts["used_sample_volume_mL"] = number(*a.used_sample_volume_mL, 6);
+  if (a.used_titrant_conc_mol_L) facts["used_titrant_conc_mol_L"] = significant(*a.used_titrant_conc_mol_L, 8);
   r["facts"] = facts;
   ordered_json dialect;
   dialect["encoding"] = run.dialect.encoding;

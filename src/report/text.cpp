@@ -63,11 +63,26 @@ std::string to_text(const Analysis& a) {
                      c.temperature_known ? "" : " (assumed)",
                      c.noise_sd,
                      to_string(c.signal));
-  if (run.facts.sample_volume_mL || run.facts.titrant_conc_mol_L) {
+  if (run.facts.sample_volume_mL || run.facts.titrant_conc_mol_L || a.used_sample_volume_mL ||
+      a.used_titrant_conc_mol_L) {
+    // What the chemistry used (a method's values win), and the file's value beside it when it differs.
+    auto differs = [](const std::optional<double>& a, const std::optional<double>& b) {
+      return a && b && std::fabs(*a - *b) > 1e-9 * std::max(std::fabs(*a), std::fabs(*b));
+    };
+    const std::optional<double> v = a.used_sample_volume_mL ? a.used_sample_volume_mL : run.facts.sample_volume_mL;
+    const std::optional<double> ct =
+        a.used_titrant_conc_mol_L ? a.used_titrant_conc_mol_L : run.facts.titrant_conc_mol_L;
     out += "  ";
-    if (run.facts.sample_volume_mL) out += fmt::format("sample {:g} mL  ", *run.facts.sample_volume_mL);
-    if (run.facts.titrant_conc_mol_L) {
-      out += fmt::format("titrant {:g} mol/L", *run.facts.titrant_conc_mol_L);
+    if (v) {
+      out += fmt::format("sample {:g} mL", *v);
+      if (differs(v, run.facts.sample_volume_mL))
+        out += fmt::format(" (from the method; the file says {:g})", *run.facts.sample_volume_mL);
+      out += "  ";
+    }
+    if (ct) {
+      out += fmt::format("titrant {:g} mol/L", *ct);
+      if (differs(ct, run.facts.titrant_conc_mol_L))
+        out += fmt::format(" (from the method; the file says {:g})", *run.facts.titrant_conc_mol_L);
       if (!run.facts.titrant_name.empty()) out += " (" + run.facts.titrant_name + ")";
     }
     out += "\n";

@@ -102,3 +102,29 @@ volume_from = "fit"
   // c = m / (M V): the fitted volume is n / (t Ct), so the result is t x 0.1 exactly at the fitted t.
   CHECK(r.value == veq::test::close(0.1 * t->value, 1e-9));
 }
+
+TEST_CASE("a method's titrant concentration (titer applied) is what the fit uses, not the file's nominal one",
+          "[fit][method]") {
+  // Acetic acid 0.05 mol/L (pKa 4.756, CRC Handbook, organic acids) titrated with NaOH truly 0.0987 mol/L;
+  // the file states the nominal 0.1. The method gives 0.1 mol/L with a titer factor 0.987.
+  veq::chem::SimulationOptions so = veq::test::simulation_of({{"acetic acid", 0.05}}, veq::TitrantKind::base, 0.1);
+  so.titrant.conc_mol_L = 0.0987;
+  const veq::chem::Simulation sim = veq::chem::simulate(so);
+  veq::AnalyzeOptions o;
+  o.method = veq::method::parse_method(
+      "name = \"acetic\"\n[analyte]\nmolar_mass_g_mol = 60.052\n[titrant]\nname = \"NaOH\"\n"
+      "concentration_mol_L = 0.1\ntiter = 0.987\n[[result]]\nname = \"acetic acid\"\nunit = \"mol/L\"\n",
+      "m.toml");
+  const veq::Analysis a = veq::analyze(veq::test::run_from_simulation(sim, true, 0.1), o);
+  REQUIRE(a.used_titrant_conc_mol_L);
+  CHECK(*a.used_titrant_conc_mol_L == Approx(0.0987).epsilon(1e-12));
+  REQUIRE(a.fit.best);
+  const auto* c = a.fit.best->parameter("c");
+  REQUIRE(c != nullptr);
+  CHECK(c->value == Approx(0.05).epsilon(1e-6));  // with the nominal 0.1 it would be 1.3 % high
+  // Without the method the file's nominal concentration is all there is.
+  const veq::Analysis b = veq::analyze(veq::test::run_from_simulation(sim, true, 0.1));
+  REQUIRE(b.fit.best);
+  // (to 1e-4 only: the titrant sodium, hence the ionic strength, is also off by the factor)
+  CHECK(b.fit.best->parameter("c")->value == Approx(0.05 / 0.987).epsilon(1e-4));
+}
