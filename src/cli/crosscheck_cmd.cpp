@@ -10,6 +10,7 @@
 #include "veq/analyze.hpp"
 #include "veq/core/atomic_file.hpp"
 #include "veq/core/constants.hpp"
+#include "veq/fit/fit.hpp"
 #include "veq/indicators/crosscheck.hpp"
 #include "veq/ingest/reader.hpp"
 #include "veq/report/indicators.hpp"
@@ -65,7 +66,11 @@ void add_crosscheck(CLI::App& app, Action& action) {
       indicators::CrosscheckOptions co;
       co.burette_tolerance_mL = st->burette_tolerance_mL;
       co.indicator = ao.indicators;
-      const auto r = indicators::crosscheck(a.run, a.curve, a.endpoints, manual, co);
+      // The same curve `veq analyze` judges indicators on: the fitted model when the fit passed its checks.
+      std::optional<indicators::PhCurve> model;
+      if (a.fit.usable()) model = fit::fitted_curve(*a.fit.best, a.curve);
+      const auto r = indicators::crosscheck(
+          a.run, a.curve, a.endpoints, manual, co, indicators::IndicatorTable::builtin(), model ? &*model : nullptr);
       const bool json_stdout = st->json == "-";
       if (!st->quiet && !json_stdout) out << report::crosscheck_text(r);
       if (!st->json.empty()) {

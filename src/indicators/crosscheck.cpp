@@ -33,7 +33,8 @@ CrosscheckResult crosscheck(const Run& run,
                             const signal::EndpointResult& endpoints,
                             const ManualTitration& manual,
                             const CrosscheckOptions& options,
-                            const IndicatorTable& table) {
+                            const IndicatorTable& table,
+                            const PhCurve* model) {
   if (const auto p = options.validate(); !p.empty()) throw InputError({"options", 0, 0}, p.front());
   if (!(std::isfinite(manual.volume_mL) && manual.volume_mL > 0.0)) {
     throw InputError({"--manual-volume", 0, 0},
@@ -46,7 +47,7 @@ CrosscheckResult crosscheck(const Run& run,
                      "give the volume of sample taken for the manual titration, in mL");
   }
   const Indicator& ind = table.find(manual.indicator);
-  if (curve.signal != SignalKind::ph) {
+  if (model == nullptr && curve.signal != SignalKind::ph) {
     throw InputError({run.source, 0, 0},
                      "the run is in mV without an electrode calibration, so no indicator's pH can be placed on it",
                      "give --e0 (and --slope) or --buffers to convert it to pH");
@@ -77,7 +78,8 @@ CrosscheckResult crosscheck(const Run& run,
         "the run");
   }
 
-  const PhCurve pc = interpolated_curve(curve);
+  const PhCurve pc = model != nullptr ? *model : interpolated_curve(curve);
+  r.curve_method = model != nullptr ? "model" : "interpolated";
   const Transition t = transition(ind, pc.direction, options.indicator.seen_rule);
   const Crossing seen = find_crossing(pc, t.seen_pH);
   if (!seen.volume_mL) {
@@ -135,6 +137,8 @@ CrosscheckResult crosscheck(const Run& run,
   // Where between its two bracketing readings the crossing lies is unknown (DEVELOPERS.md, Visual
   // indicators): rectangular, (b - a)/sqrt(12), scaled with the sample.
   r.prediction_uncertainty_mL = r.scale * (seen.bracket_high_mL - seen.bracket_low_mL) / std::sqrt(12.0);
+  // On the fitted model the crossing itself is exact; the model's position carries the endpoint's uncertainty.
+  if (model != nullptr) r.prediction_uncertainty_mL = nearest != nullptr ? r.scale * nearest->uncertainty_mL : 0.0;
   if (r.prediction_uncertainty_mL > 0.5 * r.tolerance_mL) {
     r.notes.push_back(
         fmt::format("the run's readings place the colour change only to ±{:.3f} mL at this sample "

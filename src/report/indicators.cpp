@@ -2,9 +2,9 @@
 // Indicator results in the run reports, the indicator table listing and the cross-check report.
 #include "veq/report/indicators.hpp"
 
-#include <algorithm>
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 
 #include "report/indicator_sections.hpp"
@@ -221,8 +221,10 @@ std::string crosscheck_text(const indicators::CrosscheckResult& r) {
     if (c.span_drops) out += fmt::format("; the change spans {:.3f} mL ({:.1f} drops)", *c.span_mL, *c.span_drops);
     out += "\n";
   }
-  out +=
-      fmt::format("  Predicted for the manual sample: {:.2f} ± {:.2f} mL", r.predicted_mL, r.prediction_uncertainty_mL);
+  out += fmt::format("  Predicted for the manual sample: {:.2f} ± {:.2f} mL ({})",
+                     r.predicted_mL,
+                     r.prediction_uncertainty_mL,
+                     r.curve_method == "model" ? "on the fitted model" : "between the readings");
   if (r.scale != 1.0) out += fmt::format(" (run x {:.4g})", r.scale);
   out += "\n";
   const bool class_a = std::fabs(r.burette_tolerance_mL - indicators::kClassA50mLBuretteTolerance_mL) < 1e-12;
@@ -258,6 +260,7 @@ std::string to_json(const Analysis& analysis, const indicators::CrosscheckResult
   c["run_change_mL"] = {number(r.run_begin_mL, kVolumeDecimals), number(r.run_end_mL, kVolumeDecimals)};
   c["predicted_mL"] = number(r.predicted_mL, kVolumeDecimals);
   c["prediction_uncertainty_mL"] = number(r.prediction_uncertainty_mL, kVolumeDecimals);
+  c["curve"] = r.curve_method;
   c["difference_mL"] = number(r.difference_mL, kVolumeDecimals);
   c["difference_percent"] = number(r.difference_percent, kPercentDecimals);
   c["tolerance_mL"] = number(r.tolerance_mL, kVolumeDecimals);

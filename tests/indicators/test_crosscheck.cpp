@@ -144,9 +144,31 @@ TEST_CASE("crosscheck --json - adds a crosscheck object to the run's JSON", "[in
   CHECK(c["scale"].get<double>() == veq::test::close(2.5, 1e-12));
   CHECK(c["tolerance_mL"].get<double>() == veq::test::close(0.10, 1e-9));
   CHECK(std::fabs(c["predicted_mL"].get<double>() - model_prediction_25mL()) <= 0.025);
-  // Readings 0.01 mL apart bracket the crossing: u = 2.5 x 0.01 / sqrt(12) (rectangular; JCGM 100:2008 4.3.7).
-  CHECK(c["prediction_uncertainty_mL"].get<double>() == veq::test::close(2.5 * 0.01 / std::sqrt(12.0), 1e-4));
+  // The fit passes its checks on this clean run, so the change is placed on the fitted model (as veq
+  // analyze judges indicators) and the prediction carries the endpoint's uncertainty, scaled.
+  CHECK(c["curve"] == "model");
+  // (both written to 1e-6 mL in the JSON)
+  CHECK(std::fabs(c["prediction_uncertainty_mL"].get<double>() -
+                  2.5 * j["endpoints"][0]["uncertainty_mL"].get<double>()) <= 3e-6);
   CHECK(c["verdict"] == "suitable");
+  // Without the fit it is placed between the readings: 0.01 mL apart they bracket the crossing,
+  // u = 2.5 x 0.01 / sqrt(12) (rectangular; JCGM 100:2008 4.3.7).
+  const Result nf = run({"crosscheck",
+                         f,
+                         "--indicator",
+                         "Phenolphthalein",
+                         "--manual-volume",
+                         fmt::format("{:.2f}", model_prediction_25mL()),
+                         "--manual-sample-volume",
+                         "25",
+                         "--no-fit",
+                         "--json",
+                         "-"});
+  REQUIRE(nf.code == 0);
+  const auto jn = nlohmann::json::parse(nf.out);
+  CHECK(jn["crosscheck"]["curve"] == "interpolated");
+  CHECK(jn["crosscheck"]["prediction_uncertainty_mL"].get<double>() ==
+        veq::test::close(2.5 * 0.01 / std::sqrt(12.0), 1e-4));
   // The run's endpoint carries its indicators with the documented fields.
   const auto& inds = j["endpoints"][0]["indicators"];
   REQUIRE(inds.is_array());

@@ -67,6 +67,7 @@ struct CrosscheckResult {
   std::string statement;                           // "agrees" or "disagrees by X mL (Y %)"
   std::string explanation;                         // one or two sentences on the cause
   std::vector<std::string> notes;                  // assumptions made (same sample size, ...)
+  std::string curve_method = "interpolated";       // where the change was placed: "interpolated" or "model"
 };
 
 // Predicts from a measured curve (run: its source and facts) where the named indicator's colour change
@@ -77,11 +78,15 @@ struct CrosscheckResult {
 // run's sample volume is unknown (naming that missing fact), a run in mV
 // without calibration, or an indicator whose colour change the run never
 // reaches.
+// model: the fitted model's pH curve when the fit passed its checks (fit::fitted_curve): the colour
+// change is then placed on it, as `veq analyze` judges the indicators, with the nearest endpoint's
+// uncertainty as the prediction's; null places it on the readings.
 [[nodiscard]] CrosscheckResult crosscheck(const Run& run,
                                           const Curve& curve,
                                           const signal::EndpointResult& endpoints,
                                           const ManualTitration& manual,
                                           const CrosscheckOptions& options = {},
-                                          const IndicatorTable& table = IndicatorTable::builtin());
+                                          const IndicatorTable& table = IndicatorTable::builtin(),
+                                          const PhCurve* model = nullptr);
 
 }  // namespace veq::indicators
