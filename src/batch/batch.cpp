@@ -381,7 +381,7 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   csv.write(report::summary_csv_header());
   const std::size_t failed = summary.failed();
   if (failed == 0 && listing.problems.empty()) {
-    errors.write(fmt::format("veq batch: no run failed ({} runs).\n", tasks.size()));
+    errors.write(fmt::format("veq batch: no run failed ({} run{}).\n", tasks.size(), tasks.size() == 1 ? "" : "s"));
   } else {
     errors.write(fmt::format(
         "veq batch: {} of {} runs failed; {} listing problem(s).\n", failed, tasks.size(), listing.problems.size()));

@@ -4,14 +4,13 @@
 
 #include <fmt/format.h>
 
-#include "veq/method/method.hpp"
-
 #include <algorithm>
 #include <charconv>
 #include <cmath>
 #include <vector>
 
 #include "batch/files.hpp"
+#include "veq/method/method.hpp"
 
 namespace veq::batch::detail {
 
@@ -135,8 +134,14 @@ ordered_json analysed_row(const Analysis& a, RunStatus& status) {
     }
     std::string res;
     for (const auto& r : a.results->results) {
-      res += fmt::format("{}{} = {:.{}f} {} (U = {:.{}f}, k = 2){}", res.empty() ? "" : "; ", r.name, r.value, r.decimals,
-                         method::to_string(r.unit), r.expanded_uncertainty, r.decimals,
+      res += fmt::format("{}{} = {:.{}f} {} (U = {:.{}f}, k = 2){}",
+                         res.empty() ? "" : "; ",
+                         r.name,
+                         r.value,
+                         r.decimals,
+                         method::to_string(r.unit),
+                         r.expanded_uncertainty,
+                         r.decimals,
                          r.verdict.empty() ? "" : " " + r.verdict);
     }
     result = res;
@@ -149,11 +154,18 @@ ordered_json analysed_row(const Analysis& a, RunStatus& status) {
       } else if (out_of_spec) {
         status = RunStatus::out_of_spec;
         for (const auto& r : a.results->results) {
-          if (r.verdict == "fail") error += fmt::format("{}{} outside its specification", error.empty() ? "" : "; ", r.name);
+          if (r.verdict == "fail")
+            error += fmt::format("{}{} outside its specification", error.empty() ? "" : "; ", r.name);
         }
-      } else if (status == RunStatus::ok && !a.results->conflicts.empty()) {
-        status = RunStatus::flagged;  // the method and the run disagree about a fact
+      }
+      // The method and the run disagree about a fact: flagged, and said whatever the status (a result out of
+      // specification may be the method's sample volume, not the sample).
+      if (!a.results->conflicts.empty()) {
+        if (status == RunStatus::ok) status = RunStatus::flagged;
         flags += std::string(flags.empty() ? "" : "; ") + "method_conflict";
+        if (status == RunStatus::out_of_spec || status == RunStatus::no_result) {
+          for (const auto& c : a.results->conflicts) error += (error.empty() ? "" : "; ") + c;
+        }
       }
     }
   } else if (!a.results_error.empty() && !eps.empty()) {

@@ -144,8 +144,9 @@ void add_batch(CLI::App& app, Action& action) {
       if (progress_shown) err << "\n";
 
       const std::size_t good = s.count(batch::RunStatus::ok) + s.count(batch::RunStatus::flagged);
-      out << fmt::format("veq batch: {} runs in {}: {} analysed ({} flagged), {} failed\n",
+      out << fmt::format("veq batch: {} run{} in {}: {} analysed ({} flagged), {} failed\n",
                          s.listed,
+                         s.listed == 1 ? "" : "s",
                          st->dir,
                          good,
                          s.count(batch::RunStatus::flagged),

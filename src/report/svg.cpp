@@ -232,6 +232,22 @@ void Plot::legend(std::string_view label, const Style& style) {
 
 std::string Plot::finish() const {
   const double x0 = m_left, x1 = m_w - m_right, y0 = m_top, y1 = m_h - m_bottom;
+  // Legend entries in rows across the top: an entry that would pass the right edge starts a new row,
+  // and every row after the first moves the plot down by kLegendRow (the picture grows; nothing is cut).
+  constexpr double kLegendRow = 15.0;
+  struct Placed {
+    double x, y;
+  };
+  std::vector<Placed> placed;
+  double lx = x0, ly = 12.0;
+  for (const auto& [label, style] : m_legend) {
+    (void)style;
+    const double width = 23 + 6.2 * static_cast<double>(label.size());
+    if (lx > x0 && lx + width > m_w - 4) lx = x0, ly += kLegendRow;
+    placed.push_back({lx, ly});
+    lx += width + 18;
+  }
+  const double shift = ly - 12.0;
   std::string s;
   s.reserve(m_body.size() + m_labels.size() + 4096);
   s += fmt::format(
@@ -239,9 +255,26 @@ std::string Plot::finish() const {
       "role=\"img\" aria-labelledby=\"{2}-title\" font-family=\"sans-serif\">\n"
       "<title id=\"{2}-title\">{3}</title>\n",
       coord(m_w),
-      coord(m_h),
+      coord(m_h + shift),
       m_id,
       html_escape(m_title));
+  for (std::size_t i = 0; i < m_legend.size(); ++i) {
+    Style mark = m_legend[i].second;
+    if (mark.stroke == "none") mark.stroke = mark.fill;
+    mark.stroke_width = std::max(mark.stroke_width, 2.5);
+    if (mark.opacity < 0.5) mark.opacity = 0.5;
+    s += fmt::format("<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\"{}/>\n",
+                     coord(placed[i].x),
+                     coord(placed[i].y),
+                     coord(placed[i].x + 18),
+                     coord(placed[i].y),
+                     attributes(mark));
+    s += fmt::format("<text x=\"{}\" y=\"{}\" font-size=\"11\" fill=\"#333\">{}</text>\n",
+                     coord(placed[i].x + 23),
+                     coord(placed[i].y + 4),
+                     html_escape(m_legend[i].first));
+  }
+  if (shift > 0) s += fmt::format("<g transform=\"translate(0 {})\">\n", coord(shift));
   s += fmt::format(
       "<defs><clipPath id=\"{}-clip\"><rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"/></clipPath></defs>\n",
       m_id,
@@ -294,18 +327,7 @@ std::string Plot::finish() const {
   s += m_body;
   s += "</g>\n";
   s += m_labels;
-  double lx = x0;
-  for (const auto& [label, style] : m_legend) {
-    Style mark = style;
-    if (mark.stroke == "none") mark.stroke = mark.fill;
-    mark.stroke_width = std::max(mark.stroke_width, 2.5);
-    if (mark.opacity < 0.5) mark.opacity = 0.5;
-    s +=
-        fmt::format("<line x1=\"{}\" y1=\"12\" x2=\"{}\" y2=\"12\"{}/>\n", coord(lx), coord(lx + 18), attributes(mark));
-    s += fmt::format(
-        "<text x=\"{}\" y=\"16\" font-size=\"11\" fill=\"#333\">{}</text>\n", coord(lx + 23), html_escape(label));
-    lx += 23 + 6.2 * static_cast<double>(label.size()) + 18;
-  }
+  if (shift > 0) s += "</g>\n";
   s += "</svg>\n";
   return s;
 }
