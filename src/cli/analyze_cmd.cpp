@@ -1,11 +1,11 @@
 // SPDX-License-Identifier: MIT
 // `veq analyze RUN...`: each run's summary, optional JSON, results with a method, replicate statistics.
+#include <fmt/format.h>
+
 #include <filesystem>
 #include <iostream>
 #include <map>
 #include <memory>
-
-#include <fmt/format.h>
 #include <nlohmann/json.hpp>
 
 #include "cli/cli.hpp"
@@ -30,7 +30,9 @@ struct Replicate {
 };
 
 // Replicate statistics of every result, per group (sample id or file-name pattern).
-std::string replicates_text(const std::vector<Analysis>& runs, const method::Method* m, nlohmann::ordered_json* out_json,
+std::string replicates_text(const std::vector<Analysis>& runs,
+                            const method::Method* m,
+                            nlohmann::ordered_json* out_json,
                             bool* replicates_failed) {
   // group -> result name -> values
   std::map<std::string, std::map<std::string, std::vector<Replicate>>> groups;
@@ -38,8 +40,8 @@ std::string replicates_text(const std::vector<Analysis>& runs, const method::Met
   for (const auto& a : runs) {
     if (!a.results) continue;
     const std::string stem = std::filesystem::path(a.run.source).stem().string();
-    const std::string group = method::replicate_group(a.run.facts.sample_id, stem,
-                                                      m && m->group_by == "pattern" ? m->group_pattern : "");
+    const std::string group =
+        method::replicate_group(a.run.facts.sample_id, stem, m && m->group_by == "pattern" ? m->group_pattern : "");
     for (const auto& r : a.results->results) {
       groups[group][r.name].push_back({a.run.source, r.value});
       units[r.name] = std::string(method::to_string(r.unit));
@@ -53,14 +55,25 @@ std::string replicates_text(const std::vector<Analysis>& runs, const method::Met
       std::vector<double> values;
       for (const auto& r : reps) values.push_back(r.value);
       const method::ReplicateStats s = method::replicate_stats(values);
-      text += fmt::format("  Replicates of {} ({}): n = {}, mean {:.6g} {}, SD {:.3g}, RSD {:.2f} %, 95 % CI [{:.6g}, {:.6g}]",
-                          group, name, s.n, s.mean, units[name], s.sd, s.rsd_percent, s.ci95_low, s.ci95_high);
+      text += fmt::format(
+          "  Replicates of {} ({}): n = {}, mean {:.6g} {}, SD {:.3g}, RSD {:.2f} %, 95 % CI [{:.6g}, {:.6g}]",
+          group,
+          name,
+          s.n,
+          s.mean,
+          units[name],
+          s.sd,
+          s.rsd_percent,
+          s.ci95_low,
+          s.ci95_high);
       if (s.n >= 3) text += fmt::format(", Grubbs G {:.3f} (critical {:.3f})", s.grubbs_G, s.grubbs_critical);
       text += "\n";
       if (s.outlier) text += "    suspect outlier (flagged, kept): " + reps[*s.outlier].run + "\n";
       const bool rsd_failed = m && m->max_rsd_percent && s.rsd_percent > *m->max_rsd_percent;
       if (rsd_failed && replicates_failed) *replicates_failed = true;
-      if (rsd_failed) text += fmt::format("    Acceptance failed: RSD {:.2f} % above the method's {:g} %\n", s.rsd_percent, *m->max_rsd_percent);
+      if (rsd_failed)
+        text += fmt::format(
+            "    Acceptance failed: RSD {:.2f} % above the method's {:g} %\n", s.rsd_percent, *m->max_rsd_percent);
       nlohmann::ordered_json j;
       j["group"] = group;
       j["result"] = name;
@@ -73,7 +86,8 @@ std::string replicates_text(const std::vector<Analysis>& runs, const method::Met
       j["grubbs_G"] = s.grubbs_G;
       j["grubbs_critical"] = s.grubbs_critical;
       j["outlier"] = s.outlier ? nlohmann::ordered_json(reps[*s.outlier].run) : nlohmann::ordered_json(nullptr);
-      j["rsd_acceptance"] = m && m->max_rsd_percent ? nlohmann::ordered_json(rsd_failed ? "failed" : "passed") : nlohmann::ordered_json(nullptr);
+      j["rsd_acceptance"] = m && m->max_rsd_percent ? nlohmann::ordered_json(rsd_failed ? "failed" : "passed")
+                                                    : nlohmann::ordered_json(nullptr);
       nlohmann::ordered_json members = nlohmann::ordered_json::array();
       for (const auto& r : reps) members.push_back({{"run", r.run}, {"value", r.value}});
       j["members"] = members;
@@ -97,11 +111,14 @@ void add_analyze(CLI::App& app, Action& action) {
     RunOptions opt;
   };
   auto st = std::make_shared<State>();
-  CLI::App* cmd = app.add_subcommand("analyze", "Find the endpoints of one or more runs, print a summary, compute results");
+  CLI::App* cmd =
+      app.add_subcommand("analyze", "Find the endpoints of one or more runs, print a summary, compute results");
+  cmd->alias("analyse");  // the British spelling works too
   cmd->add_option("RUN", st->runs, "Exported logs (pH or mV against volume); several runs of a sample are replicates")
       ->required();
   cmd->add_option("--json", st->json, "Also write the result as JSON to FILE, or '-' for standard output");
-  cmd->add_option("--titer-out", st->titer_out, "With a standardisation method: write the titrant's concentration to FILE");
+  cmd->add_option(
+      "--titer-out", st->titer_out, "With a standardisation method: write the titrant's concentration to FILE");
   cmd->add_option("--html", st->html, "Also write the readable report (HTML with plots) to FILE");
   cmd->add_flag("--force", st->force, "Replace an existing output file");
   cmd->add_flag("-q,--quiet", st->quiet, "No summary on standard output");
@@ -139,7 +156,8 @@ void add_analyze(CLI::App& app, Action& action) {
       }
       nlohmann::ordered_json replicates;
       bool rep_failed = false;
-      const std::string rep_text = done.size() > 1 ? replicates_text(done, m ? &*m : nullptr, &replicates, &rep_failed) : "";
+      const std::string rep_text =
+          done.size() > 1 ? replicates_text(done, m ? &*m : nullptr, &replicates, &rep_failed) : "";
       failed = failed || rep_failed;
       if (!st->quiet && !json_stdout && !rep_text.empty()) out << rep_text;
       if (!st->json.empty()) {
@@ -156,8 +174,10 @@ void add_analyze(CLI::App& app, Action& action) {
           all["replicates"] = replicates.is_null() ? nlohmann::ordered_json::array() : replicates;
           json = all.dump(2) + "\n";
         }
-        if (json_stdout) out << json;
-        else io::write_file_atomically(st->json, json, st->force);
+        if (json_stdout)
+          out << json;
+        else
+          io::write_file_atomically(st->json, json, st->force);
       }
       if (!st->titer_out.empty()) {
         std::vector<const method::TiterRecord*> titers;
@@ -165,7 +185,8 @@ void add_analyze(CLI::App& app, Action& action) {
           if (a.results && a.results->titer) titers.push_back(&*a.results->titer);
         }
         if (titers.empty()) {
-          throw InputError({"--titer-out", 0, 0}, "no titrant concentration to write",
+          throw InputError({"--titer-out", 0, 0},
+                           "no titrant concentration to write",
                            "use a standardisation method (result unit \"mol/L titrant\") on a run that gives a result");
         }
         method::TiterRecord rec = *titers.front();
@@ -186,7 +207,8 @@ void add_analyze(CLI::App& app, Action& action) {
         if (!st->quiet && !json_stdout) out << "  Titer written to " << st->titer_out << "\n";
       }
       if (!st->html.empty()) {
-        if (!single) throw InputError({"--html", 0, 0}, "--html writes the report of one run", "give one RUN, or use veq batch");
+        if (!single)
+          throw InputError({"--html", 0, 0}, "--html writes the report of one run", "give one RUN, or use veq batch");
         if (!done.empty()) io::write_file_atomically(st->html, report::to_html(done.front()), st->force);
       }
       if (bad_input) return kExitUsage;

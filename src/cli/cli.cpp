@@ -32,6 +32,20 @@ int run_cli(const std::vector<std::string>& args, std::ostream& out, std::ostrea
     err << app.help();
     return kExitUsage;
   }
+  // An unknown command word: say so, and name the commands (CLI11 would only say one is required).
+  if (!args[1].empty() && args[1][0] != '-') {
+    bool known = false;
+    std::string names;
+    for (const CLI::App* sub : app.get_subcommands([](const CLI::App*) { return true; })) {
+      names += (names.empty() ? "" : ", ") + sub->get_name();
+      known = known || sub->check_name(args[1]);
+    }
+    if (!known) {
+      err << "veq: error: '" << args[1] << "' is not a veq command\n";
+      err << "  the commands are: " << names << "; 'veq --help' describes them\n";
+      return kExitUsage;
+    }
+  }
   std::vector<std::string> reversed(args.size() > 1 ? args.begin() + 1 : args.end(), args.end());
   std::reverse(reversed.begin(), reversed.end());
   try {

@@ -6,6 +6,8 @@
 
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
+#include <string>
 
 #include "veq/core/constants.hpp"
 #include "veq/core/error.hpp"
@@ -13,16 +15,30 @@
 
 namespace veq::cli {
 
+namespace {
+
+// "a positive number", said plainly: CLI11's PositiveNumber prints its range with the largest double.
+const CLI::Validator kPositive(
+    [](std::string& text) -> std::string {
+      char* end = nullptr;
+      const double v = std::strtod(text.c_str(), &end);
+      if (text.empty() || end == text.c_str() || *end != '\0') return "'" + text + "' is not a number";
+      if (!std::isfinite(v) || !(v > 0.0)) return "'" + text + "' must be a positive number";
+      return {};
+    },
+    "POSITIVE",
+    "positive number");
+
+}  // namespace
+
 void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_option("--method", o.method_file, "Method file (TOML): turns endpoints into reportable results")
       ->group("Results");
   const char* facts = "Run facts (win over the file's metadata)";
-  cmd->add_option("--sample-volume", o.sample_volume_mL, "Sample volume V0 [mL]")
-      ->group(facts)
-      ->check(CLI::PositiveNumber);
+  cmd->add_option("--sample-volume", o.sample_volume_mL, "Sample volume V0 [mL]")->group(facts)->check(kPositive);
   cmd->add_option("--titrant-conc", o.titrant_conc_mol_L, "Titrant concentration Ct [mol/L]")
       ->group(facts)
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--titrant", o.titrant, "Titrant kind: base (pH rises) or acid (pH falls)")
       ->group(facts)
       ->check(CLI::IsMember({"acid", "base"}));
@@ -39,7 +55,7 @@ void add_run_options(CLI::App* cmd, RunOptions& o) {
   cmd->add_flag("--sort", o.sort, "Accept rows out of volume order and sort them")->group(reading);
   cmd->add_option("--max-size", o.max_size_MiB, "Refuse files larger than this [MiB] (default 64)")
       ->group(reading)
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   const char* electrode = "Electrode (mV runs)";
   cmd->add_option("--e0", o.e0_mV, "Electrode potential at pH 0 [mV]; converts mV to pH")->group(electrode);
   cmd->add_option("--slope", o.slope_mV, "Electrode slope [mV/pH] (default: Nernst slope at the run temperature)")

@@ -1,12 +1,10 @@
 // SPDX-License-Identifier: MIT
 // The veq command line: exit codes, error format, JSON output (schema veq.run/1).
 #include <catch2/catch.hpp>
-
 #include <filesystem>
 #include <fstream>
-#include <sstream>
-
 #include <nlohmann/json.hpp>
+#include <sstream>
 
 #include "cli/cli.hpp"
 
@@ -114,8 +112,17 @@ TEST_CASE("usage errors exit 2; --help explains every option and exits 0", "[cli
   CHECK(run({"analyze", "x.csv", "--titrant", "water"}).code == veq::cli::kExitUsage);
   const Result h = run({"analyze", "--help"});
   CHECK(h.code == 0);
-  for (const char* opt : {"--json", "--sample-volume", "--titrant-conc", "--titrant", "--temperature", "--columns",
-                          "--volume-unit", "--sort", "--e0", "--buffers", "--window"}) {
+  for (const char* opt : {"--json",
+                          "--sample-volume",
+                          "--titrant-conc",
+                          "--titrant",
+                          "--temperature",
+                          "--columns",
+                          "--volume-unit",
+                          "--sort",
+                          "--e0",
+                          "--buffers",
+                          "--window"}) {
     CHECK(h.out.find(opt) != std::string::npos);
   }
 }
@@ -139,4 +146,20 @@ TEST_CASE("every sample run gives at least one endpoint", "[cli][samples]") {
     CHECK_FALSE(nlohmann::json::parse(r.out)["endpoints"].empty());
   }
   CHECK(runs >= 5);
+}
+
+TEST_CASE("command words and numbers: unknown command named, British spelling, plain number messages", "[cli]") {
+  const Result unknown = run({"analyz", "x.csv"});
+  CHECK(unknown.code == veq::cli::kExitUsage);
+  CHECK(unknown.err.find("'analyz' is not a veq command") != std::string::npos);
+  CHECK(unknown.err.find("analyze") != std::string::npos);
+  const Result british = run({"analyse", write("uk.csv", kRun), "-q"});
+  INFO(british.err);
+  CHECK(british.code == veq::cli::kExitOk);
+  const Result word = run({"analyze", write("n1.csv", kRun), "--sample-volume", "abc"});
+  CHECK(word.code == veq::cli::kExitUsage);
+  CHECK(word.err.find("--sample-volume: 'abc' is not a number") != std::string::npos);
+  const Result zero = run({"analyze", write("n2.csv", kRun), "--titrant-conc", "0"});
+  CHECK(zero.code == veq::cli::kExitUsage);
+  CHECK(zero.err.find("'0' must be a positive number") != std::string::npos);
 }
