@@ -532,11 +532,13 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
         vals.push_back(v);
     }
     for (const auto& [file, of] : duplicates) {
-      errors.write(fmt::format("{}: the same content as {}; not counted as a replicate of {} ({})  [replicates]\n",
-                               file,
-                               of,
-                               key.first,
-                               key.second));
+      errors.write(
+          fmt::format("{}: the same content as {} (the first in path order); counted once in the replicates of {} ({}) "
+                      " [replicates]\n",
+                      file,
+                      of,
+                      key.first,
+                      key.second));
     }
     if (vals.size() < 2) continue;
     std::vector<double> x;
