@@ -2,6 +2,8 @@
 // The pipeline for one run: prepare, derivative endpoints, Gran and consensus, indicators, results.
 #include "veq/analyze.hpp"
 
+#include <algorithm>
+
 #include "veq/chem/analytes.hpp"
 
 namespace veq {
@@ -114,7 +116,11 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
     e.consensus_methods = c.methods;
     e.consensus_left_out = c.left_out;
     if (c.disagree) e.flags.emplace_back(signal::kFlagMethodsDisagree);
-    if ((g.before && !g.before->linear) || (g.after && !g.after->linear))
+    // A Gran line that is not straight (never part of the consensus) flags the endpoint when nothing but the
+    // derivative and the other Gran line then stand behind it; beside a usable fit it changes nothing, and it
+    // is still shown with its own "not straight" note (activity bends a buffer line even on perfect data).
+    const bool with_fit = std::find(c.methods.begin(), c.methods.end(), "fit") != c.methods.end();
+    if (!with_fit && ((g.before && !g.before->linear) || (g.after && !g.after->linear)))
       e.flags.emplace_back(signal::kFlagGranNonlinear);
   }
   // Indicators judge the consensus endpoint volumes, on the fitted model's curve when the fit is usable

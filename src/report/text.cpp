@@ -17,7 +17,7 @@ namespace {
 int decimals_for(double uncertainty) {
   if (!(uncertainty > 0)) return 3;
   const int d = 1 - static_cast<int>(std::floor(std::log10(uncertainty)));
-  return std::clamp(d, 2, 5);
+  return std::clamp(d, 2, 6);  // a fit's u can be a few µL: six decimals keep two of its digits
 }
 
 }  // namespace
