@@ -1405,15 +1405,20 @@ FitResult fit_titration(const Curve& curve,
   });
   // The best score wins, except that a candidate with a free parameter on its bound (a component driven
   // to nothing, a pKa pushed out of reach) gives way to one without: the simpler model then says the same.
-  std::size_t chosen = best_per_shape.size();
-  for (const bool allow_bound : {false, true}) {
-    for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
-      const Attempt& q = best_per_shape[i];
-      if (!q.ok || q.abandoned || (!allow_bound && at_bound(q))) continue;
-      if (chosen == best_per_shape.size() || q.score < best_per_shape[chosen].score) chosen = i;
+  // The best by that rule, leaving out one index (none: size()); size() when there is none.
+  auto best_by_rule = [&](std::size_t except) {
+    std::size_t best = best_per_shape.size();
+    for (const bool allow_bound : {false, true}) {
+      for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
+        const Attempt& q = best_per_shape[i];
+        if (i == except || !q.ok || q.abandoned || (!allow_bound && at_bound(q))) continue;
+        if (best == best_per_shape.size() || q.score < best_per_shape[best].score) best = i;
+      }
+      if (best != best_per_shape.size()) break;
     }
-    if (chosen != best_per_shape.size()) break;
-  }
+    return best;
+  };
+  std::size_t chosen = best_by_rule(best_per_shape.size());
   if (chosen == best_per_shape.size() && hold_error &&
       std::none_of(
           best_per_shape.begin(), best_per_shape.end(), [](const Attempt& q) { return !q.layout.params.empty(); })) {
@@ -1432,15 +1437,19 @@ FitResult fit_titration(const Curve& curve,
   if (screening) {
     const std::size_t screened_winner = chosen;
     // The screening's best two (by the same rule), fitted again to every reading from where they stopped.
-    std::size_t second = best_per_shape.size();
-    for (const bool allow_bound : {false, true}) {
-      for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
-        const Attempt& q = best_per_shape[i];
-        if (i == chosen || !q.ok || q.abandoned || (!allow_bound && at_bound(q))) continue;
-        if (second == best_per_shape.size() || q.score < best_per_shape[second].score) second = i;
+    const std::size_t second = best_by_rule(chosen);
+    // A candidate's entry after its refit on every reading.
+    auto rescore = [&](const Attempt& a) {
+      for (auto& c : result.candidates) {
+        if (c.model != a.layout.shape.name) continue;
+        c.score = std::isfinite(a.score) ? a.score : 0.0;
+        c.converged = a.ok && a.report.status == FitStatus::converged;
+        c.readings = static_cast<int>(n_all);
+        c.residual_sd = a.ok ? std::sqrt(std::max(a.rho_sum, 0.0) /
+                                         std::max<double>(1.0, static_cast<double>(n_all) - a.layout.free_count))
+                             : 0.0;
       }
-      if (second != best_per_shape.size()) break;
-    }
+    };
     AttemptLimits again = candidate_limits;
     again.function_tolerance = std::max(o.function_tolerance, 0.02 / static_cast<double>(n_all));
     again.least_squares_stage = false;
@@ -1458,14 +1467,7 @@ FitResult fit_titration(const Curve& curve,
         brief.max_iterations = std::min(again.max_iterations, 3);
         Attempt quick = run_attempt(L, p, o, delta, brief);
         if (quick.ok && quick.score > best_per_shape[chosen].score + 10.0) {
-          for (auto& c : result.candidates) {
-            if (c.model != q.layout.shape.name) continue;
-            c.score = quick.score;
-            c.converged = quick.report.status == FitStatus::converged;
-            c.readings = static_cast<int>(n_all);
-            c.residual_sd = std::sqrt(std::max(quick.rho_sum, 0.0) /
-                                      std::max<double>(1.0, static_cast<double>(n_all) - quick.layout.free_count));
-          }
+          rescore(quick);
           q = std::move(quick);
           continue;
         }
@@ -1478,15 +1480,7 @@ FitResult fit_titration(const Curve& curve,
         lim.function_tolerance = o.function_tolerance;
       }
       Attempt full = run_attempt(std::move(L), p, o, delta, lim);
-      for (auto& c : result.candidates) {
-        if (c.model != q.layout.shape.name) continue;
-        c.score = std::isfinite(full.score) ? full.score : 0.0;
-        c.converged = full.ok && full.report.status == FitStatus::converged;
-        c.readings = static_cast<int>(n_all);
-        c.residual_sd = full.ok ? std::sqrt(std::max(full.rho_sum, 0.0) /
-                                            std::max<double>(1.0, static_cast<double>(n_all) - full.layout.free_count))
-                                : 0.0;
-      }
+      rescore(full);
       q = std::move(full);
     }
     // All the readings decide between the two (a bound again gives way).
