@@ -2,6 +2,8 @@
 // The pipeline for one run: prepare, derivative endpoints, Gran and consensus, indicators, results.
 #include "veq/analyze.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 
 #include "veq/chem/analytes.hpp"
@@ -91,7 +93,28 @@ Analysis analyze(Run run, const AnalyzeOptions& options) {
   fi.titrant_conc_mol_L = used.titrant_conc_mol_L.value_or(0.0);
   fi.titrant = run.facts.titrant_kind;
   fi.temperature_C = a.curve.temperature_C;
-  a.fit = fit::fit_titration(a.curve, fi, a.endpoints.endpoints, a.gran, fit_options_for(options, run));
+  const fit::FitOptions fo = fit_options_for(options, run);
+  a.fit = fit::fit_titration(a.curve, fi, a.endpoints.endpoints, a.gran, fo);
+  // Sodium hydroxide takes up CO2 from the air: a base-titrant fit that does not describe the readings is
+  // tried once more with the titrant's carbonate fraction free, and kept when that one passes its checks.
+  const bool base_titrant =
+      fi.titrant == TitrantKind::base || (fi.titrant == TitrantKind::unknown && a.curve.signal == SignalKind::ph &&
+                                          !a.curve.converted_from_mv && a.curve.direction > 0);
+  if (a.fit.best && !a.fit.usable() && !fo.fit_carbonate && base_titrant) {
+    fit::FitOptions with_co2 = fo;
+    with_co2.fit_carbonate = true;
+    fit::FitResult second = fit::fit_titration(a.curve, fi, a.endpoints.endpoints, a.gran, with_co2);
+    if (second.usable()) {
+      const fit::Parameter* f = second.best->parameter("carbonate_fraction");
+      second.warnings.push_back(
+          {"titrant_carbonate",
+           fmt::format("the fit describes the readings only with carbonate in the titrant ({:.1f} % of its hydroxide "
+                       "turned to carbonate): the base has taken up CO2; restandardise it or protect it from air",
+                       f != nullptr ? 100.0 * f->value : 0.0),
+           {}});
+      a.fit = std::move(second);
+    }
+  }
   for (auto& w : a.fit.warnings) {
     if (w.where.file.empty()) w.where.file = run.source;
   }

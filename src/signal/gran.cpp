@@ -2,11 +2,11 @@
 // Gran plots: weighted straight lines through linearised branches, window by a linearity rule.
 #include "veq/signal/gran.hpp"
 
-#include <algorithm>
-#include <cmath>
-
-#include <boost/math/distributions/chi_squared.hpp>
 #include <fmt/format.h>
+
+#include <algorithm>
+#include <boost/math/distributions/chi_squared.hpp>
+#include <cmath>
 
 #include "veq/chem/activity.hpp"
 #include "veq/chem/water.hpp"
@@ -18,7 +18,7 @@ namespace {
 using constants::kLn10;
 
 struct Fit {
-  double a = 0, b = 0;                 // y = a + b x
+  double a = 0, b = 0;                      // y = a + b x
   double var_a = 0, var_b = 0, cov_ab = 0;  // unscaled (weights as 1/sigma^2)
   double chi2 = 0;
   double r2 = 0;
@@ -27,7 +27,10 @@ struct Fit {
 };
 
 // Weighted least squares on [lo, hi], two-pass (centred) for accuracy.
-Fit fit_line(const std::vector<double>& x, const std::vector<double>& y, const std::vector<double>& w, std::size_t lo,
+Fit fit_line(const std::vector<double>& x,
+             const std::vector<double>& y,
+             const std::vector<double>& w,
+             std::size_t lo,
              std::size_t hi) {
   Fit f;
   f.n = static_cast<int>(hi - lo + 1);
@@ -60,8 +63,8 @@ Fit fit_line(const std::vector<double>& x, const std::vector<double>& y, const s
 
 // Wald-Wolfowitz runs test on residual signs: true when there are too few
 // runs for chance (one-sided, 1 %), i.e. the residuals follow a curve.
-bool residual_pattern(const std::vector<double>& x, const std::vector<double>& y, std::size_t lo, std::size_t hi,
-                      const Fit& f) {
+bool residual_pattern(
+    const std::vector<double>& x, const std::vector<double>& y, std::size_t lo, std::size_t hi, const Fit& f) {
   const std::size_t n = hi - lo + 1;
   if (n < 10) return false;
   int pos = 0, neg = 0, runs = 0, last = 0;
@@ -102,7 +105,6 @@ struct Series {
   double u_ref = 0;
 };
 
-
 double davies_log_gamma(int z, double ionic_strength, double temperature_C) {
   return chem::davies_log10_gamma(z, ionic_strength, chem::debye_huckel_A(temperature_C));
 }
@@ -135,8 +137,10 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
     if (static_cast<int>(hi - lo) < min_points) break;
     const Fit fl = fit_line(s.v, s.g, s.w, lo + 1, hi);
     const Fit fh = fit_line(s.v, s.g, s.w, lo, hi - 1);
-    if (fl.reduced() < fh.reduced()) ++lo, next = fl;
-    else --hi, next = fh;
+    if (fl.reduced() < fh.reduced())
+      ++lo, next = fl;
+    else
+      --hi, next = fh;
   }
   return best;
 }
@@ -145,9 +149,12 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
 
 std::string_view to_string(GranFunction f) {
   switch (f) {
-    case GranFunction::excess_analyte: return "excess_analyte";
-    case GranFunction::excess_titrant: return "excess_titrant";
-    case GranFunction::buffer: return "buffer";
+    case GranFunction::excess_analyte:
+      return "excess_analyte";
+    case GranFunction::excess_titrant:
+      return "excess_titrant";
+    case GranFunction::buffer:
+      return "buffer";
   }
   return "excess_analyte";
 }
@@ -155,14 +162,18 @@ std::string_view to_string(GranFunction f) {
 std::vector<std::string> GranOptions::validate() const {
   std::vector<std::string> p;
   if (window_mL && !(window_mL->first >= 0 && window_mL->second > window_mL->first)) {
-    p.push_back(fmt::format("gran window {:g}:{:g} mL: expected from < to, both 0 or more", window_mL->first,
-                            window_mL->second));
+    p.push_back(fmt::format(
+        "gran window {:g}:{:g} mL: expected from < to, both 0 or more", window_mL->first, window_mL->second));
   }
-  if (!(before_from >= 0 && before_from < before_to && before_to <= 1.0 && before_from < buffer_to && buffer_to <= 1.0)) {
+  if (!(before_from >= 0 && before_from < before_to && before_to <= 1.0 && before_from < buffer_to &&
+        buffer_to <= 1.0)) {
     p.push_back(fmt::format("gran before_from/before_to/buffer_to = {:g}/{:g}/{:g}: expected 0 <= from < to <= 1",
-                            before_from, before_to, buffer_to));
+                            before_from,
+                            before_to,
+                            buffer_to));
   }
-  if (!(max_offset > 0 && max_offset <= 1)) p.push_back(fmt::format("gran max_offset = {:g}: expected (0, 1]", max_offset));
+  if (!(max_offset > 0 && max_offset <= 1))
+    p.push_back(fmt::format("gran max_offset = {:g}: expected (0, 1]", max_offset));
   if (!(after_from >= 0 && after_from < after_to)) {
     p.push_back(fmt::format("gran after_from/after_to = {:g}/{:g}: expected 0 <= from < to", after_from, after_to));
   }
@@ -171,14 +182,18 @@ std::vector<std::string> GranOptions::validate() const {
     p.push_back(fmt::format("analyte_charge = {}: expected -4..4", *analyte_charge));
   }
   if (!(background_ionic_strength_mol_L >= 0 && background_ionic_strength_mol_L < 5)) {
-    p.push_back(fmt::format("background ionic strength = {:g} mol/L: expected 0 to 5", background_ionic_strength_mol_L));
+    p.push_back(
+        fmt::format("background ionic strength = {:g} mol/L: expected 0 to 5", background_ionic_strength_mol_L));
   }
   return p;
 }
 
-std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<Endpoint>& endpoints,
-                                         const GranInputs& inputs, const GranOptions& options,
-                                         std::vector<Diagnostic>& warnings, const std::string& file) {
+std::vector<GranEndpoint> gran_endpoints(const Curve& curve,
+                                         const std::vector<Endpoint>& endpoints,
+                                         const GranInputs& inputs,
+                                         const GranOptions& options,
+                                         std::vector<Diagnostic>& warnings,
+                                         const std::string& file) {
   std::vector<GranEndpoint> out(endpoints.size());
   if (endpoints.empty()) return out;
   if (!inputs.sample_volume_mL) {
@@ -220,8 +235,8 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
     const double c_an = ct * seg / (V0 + v);
     const auto [za, zb] = step_charges(step);
     // converted fraction: the base form for a base titrant, the acid form for an acid titrant
-    const double forms = ud > 0 ? c_an * ((1 - frac) * za * za + frac * zb * zb)
-                                : c_an * ((1 - frac) * zb * zb + frac * za * za);
+    const double forms =
+        ud > 0 ? c_an * ((1 - frac) * za * za + frac * zb * zb) : c_an * ((1 - frac) * zb * zb + frac * za * za);
     return 0.5 * (ct * v / (V0 + v) + std::abs(z0) * c_an + forms) + options.background_ionic_strength_mol_L;
   };
 
@@ -237,10 +252,10 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   const bool corrected = effective && options.activity_correction && options.analyte_charge.has_value();
   const double kw = std::pow(10.0, -chem::pKw(curve.temperature_C));
   struct Segment {
-    int step = 1;        // 1-based endpoint index
-    double v_prev = 0;   // previous equivalence volume [mL]
-    double seg = 1;      // segment length [mL]
-    double v_eq = 0;     // this equivalence volume [mL]
+    int step = 1;       // 1-based endpoint index
+    double v_prev = 0;  // previous equivalence volume [mL]
+    double seg = 1;     // segment length [mL]
+    double v_eq = 0;    // this equivalence volume [mL]
   };
   auto series = [&](GranFunction f, const Segment& sg, std::size_t lo, std::size_t hi, int sign, double* mean_ionic) {
     Series s;
@@ -262,13 +277,14 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
         if (f == GranFunction::buffer) {
           ionic = buffer_ionic(V[i], x, sg.step, sg.v_prev, sg.seg);
           const auto [za, zb] = step_charges(sg.step);
-          const double lg = davies_log_gamma(zb, ionic, inputs.temperature_C) -
-                            davies_log_gamma(za, ionic, inputs.temperature_C);
+          const double lg =
+              davies_log_gamma(zb, ionic, inputs.temperature_C) - davies_log_gamma(za, ionic, inputs.temperature_C);
           g *= std::pow(10.0, ud > 0 ? lg : -lg);  // x gamma_B/gamma_A (base titrant) or gamma_A/gamma_B
         } else {
           const double v_ions = f == GranFunction::excess_analyte ? sg.v_eq : V[i];
           ionic = ct * v_ions / (V0 + V[i]) + options.background_ionic_strength_mol_L;
-          g /= std::pow(10.0, davies_log_gamma(1, ionic, inputs.temperature_C));  // activity of H+ or OH- -> concentration
+          g /= std::pow(10.0,
+                        davies_log_gamma(1, ionic, inputs.temperature_C));  // activity of H+ or OH- -> concentration
         }
         sum_ionic += ionic;
       }
@@ -291,8 +307,8 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
   };
 
   // Fits one branch; nullopt when it has too few readings or no line.
-  auto branch = [&](GranFunction f, bool after, const Segment& sg, double from, double to, int sign,
-                    bool fixed) -> std::optional<GranBranch> {
+  auto branch = [&](GranFunction f, bool after, const Segment& sg, double from, double to, int sign, bool fixed)
+      -> std::optional<GranBranch> {
     std::size_t lo = 0, hi = 0;
     if (!index_range(from, to, lo, hi)) return std::nullopt;
     // Thin very long windows for the search, refit on all readings at the end.
@@ -302,7 +318,8 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
     Series thin;
     if (stride > 1) {
       thin.u_ref = full.u_ref;
-      for (std::size_t i = 0; i < n; i += stride) thin.v.push_back(full.v[i]), thin.g.push_back(full.g[i]), thin.w.push_back(full.w[i]);
+      for (std::size_t i = 0; i < n; i += stride)
+        thin.v.push_back(full.v[i]), thin.g.push_back(full.g[i]), thin.w.push_back(full.w[i]);
     }
     const Series& search = stride > 1 ? thin : full;
     Trimmed t = trim(search, 0, search.v.size() - 1, options.min_points, fixed);
@@ -416,7 +433,8 @@ std::vector<GranEndpoint> gran_endpoints(const Curve& curve, const std::vector<E
       warnings.push_back({"gran_window",
                           fmt::format("the Gran window {:g}:{:g} mL lies in no branch of this run (before an endpoint, "
                                       "or after the last one) or holds too few readings",
-                                      options.window_mL->first, options.window_mL->second),
+                                      options.window_mL->first,
+                                      options.window_mL->second),
                           {file, 0, 0}});
     }
   }
@@ -430,22 +448,22 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g, const std::optiona
     bool flagged;
   };
   std::vector<Est> all;
-  const bool d_flagged = std::any_of(e.flags.begin(), e.flags.end(), [](const std::string& f) {
-    return f == kFlagEdge || f == kFlagFewPoints;
-  });
+  const bool d_flagged = std::any_of(
+      e.flags.begin(), e.flags.end(), [](const std::string& f) { return f == kFlagEdge || f == kFlagFewPoints; });
   all.push_back({"derivative", e.derivative_volume_mL, e.derivative_uncertainty_mL, d_flagged});
-  if (g.before && g.before->linear) all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
+  if (g.before && g.before->linear)
+    all.push_back({"gran_before", g.before->volume_mL, g.before->uncertainty_mL, false});
   if (g.after && g.after->linear) all.push_back({"gran_after", g.after->volume_mL, g.after->uncertainty_mL, false});
   if (fitted) all.push_back({"fit", fitted->volume_mL, fitted->uncertainty_mL, false});
   const bool any_clean = std::any_of(all.begin(), all.end(), [](const Est& x) { return !x.flagged; });
-  auto apart = [](const Est& a, const Est& b) {
-    return std::fabs(a.v - b.v) > 2.0 * std::sqrt(a.u * a.u + b.u * b.u);
-  };
+  auto apart = [](const Est& a, const Est& b) { return std::fabs(a.v - b.v) > 2.0 * std::sqrt(a.u * a.u + b.u * b.u); };
   // The reference the others must agree with: a usable fit (it models the whole curve,
   // asymmetry and activity included), else a clean derivative estimate (model-free).
   const Est* reference = nullptr;
-  if (fitted) reference = &all.back();
-  else if (!d_flagged) reference = &all.front();
+  if (fitted)
+    reference = &all.back();
+  else if (!d_flagged)
+    reference = &all.front();
   Consensus c;
   std::vector<Est> used;
   for (const auto& x : all) {
@@ -458,6 +476,10 @@ Consensus consensus(const Endpoint& e, const GranEndpoint& g, const std::optiona
     // is not the equivalence point of an asymmetric curve): leave it out.
     if (reference != nullptr && &x != reference && apart(x, *reference)) {
       c.left_out.push_back(x.name);
+      // Against the derivative alone (no usable fit to say which chemistry holds) a disagreement is
+      // itself worth a flag: look at the plots. Beside a usable fit it is expected (a Gran line
+      // without activity correction) and the fit decides.
+      if (!fitted) c.disagree = true;
       continue;
     }
     used.push_back(x);

@@ -1,7 +1,6 @@
 // SPDX-License-Identifier: MIT
 // Gran's method against exact curves, a published worked example, and the consensus rule.
 #include <catch2/catch.hpp>
-
 #include <cmath>
 #include <random>
 
@@ -13,8 +12,8 @@
 #include "veq/chem/simulate.hpp"
 #include "veq/signal/gran.hpp"
 
-using veq::test::Sample;
 using veq::test::grid;
+using veq::test::Sample;
 
 namespace {
 
@@ -179,12 +178,17 @@ TEST_CASE("consensus: inverse-variance mean, disagreement flagged", "[signal][gr
   CHECK(c.volume_mL == veq::test::close(10.008, 1e-9));
   CHECK(c.uncertainty_mL == veq::test::close(1.0 / std::sqrt(1.0 / 0.0004 + 1.0 / 0.0001), 1e-9));
   CHECK_FALSE(c.disagree);
-  // A Gran line 0.10 mL from a clean derivative estimate (beyond 2 x 0.022 combined) is left out.
+  // A Gran line 0.10 mL from a clean derivative estimate (beyond 2 x 0.022 combined) is left out, and with
+  // no fit to say which chemistry holds the endpoint is flagged (look at the plots).
   g.before->volume_mL = 10.10;
   const auto out = veq::signal::consensus(e, g);
   CHECK(out.volume_mL == veq::test::close(10.00, 1e-12));
   CHECK(out.left_out == std::vector<std::string>{"gran_before"});
-  CHECK_FALSE(out.disagree);
+  CHECK(out.disagree);
+  // Beside a usable fit that agrees with the derivative, the same Gran line is left out without a flag.
+  const auto with_fit = veq::signal::consensus(e, g, veq::signal::VolumeEstimate{10.002, 0.005});
+  CHECK(with_fit.left_out == std::vector<std::string>{"gran_before"});
+  CHECK_FALSE(with_fit.disagree);
   // Estimates that each agree with the reference but scatter 2.5 times their uncertainties
   // among themselves (Birge ratio sqrt(12.5 / 2) = 2.5 > 2) flag the endpoint.
   veq::signal::Endpoint e2;
@@ -222,7 +226,8 @@ TEST_CASE("Gran default options are pinned", "[options]") {
   CHECK(g.validate().empty());
 }
 
-TEST_CASE("Gran on a non-ideal (Davies) curve: corrected for activity when the charge is stated", "[signal][gran][reference]") {
+TEST_CASE("Gran on a non-ideal (Davies) curve: corrected for activity when the charge is stated",
+          "[signal][gran][reference]") {
   // Acetic acid, thermodynamic pKa 4.756 (CRC Handbook, organic acids), 0.1 mol/L in 25 mL with
   // 0.1 mol/L NaOH, simulated by the chemistry model with Davies activity coefficients.
   veq::chem::SimulationOptions so;
