@@ -31,15 +31,6 @@ ordered_json optional_significant(const std::optional<double>& x, int digits) {
   return x ? significant(*x, digits) : ordered_json(nullptr);
 }
 
-// Decimals that show a value to two significant digits of its standard error.
-int decimals_for(const std::optional<double>& se, double value) {
-  if (se && *se > 0.0 && std::isfinite(*se))
-    return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
-  if (value != 0.0 && std::isfinite(value))
-    return std::clamp(4 - static_cast<int>(std::floor(std::log10(std::fabs(value)))), 0, 10);
-  return 4;
-}
-
 const fit::FittedEquivalence* matched(const Analysis& a, int endpoint_index) {
   if (!a.fit.usable()) return nullptr;
   for (const auto& fe : a.fit.best->equivalence) {
@@ -49,6 +40,15 @@ const fit::FittedEquivalence* matched(const Analysis& a, int endpoint_index) {
 }
 
 }  // namespace
+
+// Decimals that show a value to two significant digits of its standard error.
+int parameter_decimals(const std::optional<double>& se, double value) {
+  if (se && *se > 0.0 && std::isfinite(*se))
+    return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
+  if (value != 0.0 && std::isfinite(value))
+    return std::clamp(4 - static_cast<int>(std::floor(std::log10(std::fabs(value)))), 0, 10);
+  return 4;
+}
 
 ordered_json fit_json(const Analysis& a) {
   const fit::FitResult& r = a.fit;
@@ -161,7 +161,7 @@ void add_endpoint_fit(ordered_json& methods, const Analysis& a, int endpoint_ind
 std::string endpoint_fit_line(const Analysis& a, int endpoint_index) {
   const fit::FittedEquivalence* fe = matched(a, endpoint_index);
   if (fe == nullptr) return {};
-  const int d = std::clamp(decimals_for(fe->uncertainty_mL, fe->volume_mL), 2, 6);
+  const int d = std::clamp(parameter_decimals(fe->uncertainty_mL, fe->volume_mL), 2, 6);
   return fmt::format(
       "      Fit: {:.{}f} ± {:.{}f} mL ({})\n", fe->volume_mL, d, *fe->uncertainty_mL, d, a.fit.best->model);
 }
@@ -188,7 +188,7 @@ std::string fit_block(const Analysis& a) {
   out += "\n     ";
   bool first = true;
   for (const auto& p : b.parameters) {
-    const int d = decimals_for(p.std_error, p.value);
+    const int d = parameter_decimals(p.std_error, p.value);
     out += first ? " " : "; ";
     first = false;
     const std::string u = p.unit.empty() ? "" : " " + p.unit;

@@ -3,11 +3,16 @@
 #pragma once
 
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <string>
 
 #include "veq/analyze.hpp"
 
 namespace veq::report::detail {
+
+// Decimals that show a parameter to two significant digits of its standard error (four significant
+// digits of the value when there is none).
+[[nodiscard]] int parameter_decimals(const std::optional<double>& std_error, double value);
 
 // The "fit" object of the run's JSON (README, "Result files"). Always
 // present; a fit that was not run or failed says so in status and flags.

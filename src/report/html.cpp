@@ -7,6 +7,7 @@
 #include <algorithm>
 #include <cmath>
 
+#include "report/fit_sections.hpp"
 #include "report/svg.hpp"
 #include "report/utf8.hpp"
 #include "veq/report/text.hpp"
@@ -434,14 +435,6 @@ const char* fit_flag_meaning(std::string_view flag) {
   return "see the documentation";
 }
 
-int fit_decimals(const std::optional<double>& se, double value) {
-  if (se && *se > 0.0 && std::isfinite(*se))
-    return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
-  if (value != 0.0 && std::isfinite(value))
-    return std::clamp(4 - static_cast<int>(std::floor(std::log10(std::fabs(value)))), 0, 10);
-  return 4;
-}
-
 // The charge-balance fit: what was fitted, the parameters with their
 // intervals, the fitted equivalence volumes and the residual plot.
 std::string section_fit(const Analysis& a, const HtmlOptions& o) {
@@ -473,7 +466,7 @@ std::string section_fit(const Analysis& a, const HtmlOptions& o) {
   s += "<table class=\"results\">\n<thead><tr><th>Parameter</th><th>Value</th><th>Standard error</th>"
        "<th>95 % interval</th><th>Unit</th></tr></thead>\n<tbody>\n";
   for (const auto& p : b.parameters) {
-    const int d = fit_decimals(p.std_error, p.value);
+    const int d = detail::parameter_decimals(p.std_error, p.value);
     std::string se = p.fixed ? "held" : (p.std_error ? fmt::format("{:.{}f}", *p.std_error, d) : "&#8211;");
     std::string ci =
         (p.ci95_low && p.ci95_high) ? fmt::format("{:.{}f} to {:.{}f}", *p.ci95_low, d, *p.ci95_high, d) : "&#8211;";
