@@ -584,8 +584,32 @@ struct Attempt {
   bool abandoned = false;
 };
 
-// The warm states of the first evaluation: the first reading solved cold, each further one by Newton from
-// its predecessor (the bracketing solver when that fails).
+// The state at volumes[i] by Newton, from the state extrapolated linearly in volume from the two before
+// (states[i - 2], states[i - 1]; their converged flags are not checked), else from the one before; false when
+// both fail (s is then unspecified). i >= 1.
+bool newton_next(const detail::FastBalance& fb,
+                 const std::vector<double>& volumes,
+                 const std::vector<chem::Equilibrium>& states,
+                 std::size_t i,
+                 chem::Equilibrium& s,
+                 chem::detail::BalanceJacobian& jac) {
+  const double V = volumes[i];
+  if (i >= 2) {
+    const chem::Equilibrium& a = states[i - 2];
+    const chem::Equilibrium& b = states[i - 1];
+    const double dv = volumes[i - 1] - volumes[i - 2];
+    const double t = dv > 0.0 ? std::min((V - volumes[i - 1]) / dv, 2.0) : 0.0;
+    s = b;
+    s.log10_h += t * (b.log10_h - a.log10_h);
+    s.log10_gamma1 += t * (b.log10_gamma1 - a.log10_gamma1);
+    if (fb.newton(V, s, jac)) return true;
+  }
+  s = states[i - 1];
+  return fb.newton(V, s, jac);
+}
+
+// The warm states of the first evaluation, reading by reading: newton_next (at the first reading, Newton
+// from the reading itself when it is a pH, else from pH 7), the bracketing solver when Newton fails.
 bool initial_states(const Layout& L, const std::vector<double>& u, const Observations& obs, WarmStates& warm) {
   const chem::Model<double> m = L.model(u.data());
   const detail::FastBalance fb(m);
@@ -594,17 +618,25 @@ bool initial_states(const Layout& L, const std::vector<double>& u, const Observa
   const std::size_t n = obs.volume_mL.size();
   warm.state.assign(n, chem::Equilibrium{});
   warm.jacobian.assign(n, chem::detail::BalanceJacobian{});
-  chem::Equilibrium prev;
+  warm.tangent_valid = false;
   for (std::size_t i = 0; i < n; ++i) {
-    chem::Equilibrium s = prev;
-    if (!prev.converged || !fb.newton(obs.volume_mL[i], s, warm.jacobian[i])) {
+    const double V = obs.volume_mL[i];
+    chem::Equilibrium s;
+    bool ok = i >= 1 && newton_next(fb, obs.volume_mL, warm.state, i, s, warm.jacobian[i]);
+    if (!ok && i == 0) {
+      const double pH = L.signal == SignalKind::ph && std::isfinite(obs.value[0]) ? obs.value[0] : 7.0;
+      s.log10_h = -std::clamp(pH, 0.0, 14.0);
+      s.log10_gamma1 = 0.0;
+      ok = fb.newton(V, s, warm.jacobian[i], 40);
+    }
+    if (!ok) {
       if (!fm) fm = chem::detail::make_fast_model(m);
-      s = chem::detail::solve_fast(*fm, obs.volume_mL[i], prev.converged ? &prev : nullptr, so, &warm.jacobian[i]);
-      if (!s.converged) s = chem::detail::solve_fast(*fm, obs.volume_mL[i], nullptr, so, &warm.jacobian[i]);
+      const chem::Equilibrium* prev = i >= 1 ? &warm.state[i - 1] : nullptr;
+      s = chem::detail::solve_fast(*fm, V, prev, so, &warm.jacobian[i]);
+      if (!s.converged) s = chem::detail::solve_fast(*fm, V, nullptr, so, &warm.jacobian[i]);
       if (!s.converged) return false;
     }
     warm.state[i] = s;
-    prev = s;
   }
   std::fill(warm.u.begin(), warm.u.end(), 0.0);
   std::copy(u.begin(), u.end(), warm.u.begin());
@@ -668,11 +700,11 @@ LossAt loss_at(const ceres::LossFunction& loss, double r) {
 
 // Fits a layout in two stages. First plain least squares from the start: it converges in a few iterations,
 // where the robust loss, with most residuals far beyond its threshold at first, would crawl. Then, if any
-// residual lies beyond the threshold, the robust loss by iteratively reweighted least squares (weights
-// w_i = rho'(r_i^2) = psi(r_i)/r_i held fixed in each solve, renewed until they settle; Holland & Welsch,
-// Commun. Stat. A6 (1977) 813): its fixed point solves sum psi(r_i) dr_i/dtheta = 0, the robust normal
-// equations, and each solve is a smooth least-squares problem that Levenberg-Marquardt finishes quickly.
-// The score is the criterion on sum rho(r_i^2).
+// residual lies beyond the threshold, the robust loss in one more solve from there, each residual in its
+// square-root form sign(r) sqrt(rho(r^2)) (detail::CurveCost): its minimum solves the robust normal
+// equations sum psi(r_i) dr_i/dtheta = 0, the fixed point that iteratively reweighted least squares
+// (Holland & Welsch, Commun. Stat. A6 (1977) 813) reaches in many solves. The score is the criterion on
+// sum rho(r_i^2).
 void solve_attempt(Attempt& a, const Prepared& p, const FitOptions& o, double delta, const AttemptLimits& lim);
 
 Attempt run_attempt(Layout layout, const Prepared& p, const FitOptions& o, double delta, const AttemptLimits& lim) {
@@ -706,68 +738,46 @@ void solve_attempt(Attempt& a, const Prepared& p, const FitOptions& o, double de
   FitOptions limited = o;
   limited.max_iterations = lim.max_iterations;
   limited.function_tolerance = lim.function_tolerance;
-  std::vector<double> weights(static_cast<std::size_t>(n), 1.0);
-  ceres::Problem problem;
-  add_curve_block(problem, new detail::CurveCost(&a.layout, &p.obs, a.warm.get(), &weights), a.u);
-  for (const auto& d : L.params) {
-    if (d.index < 0) continue;
-    problem.SetParameterLowerBound(a.u.data(), d.index, d.lower / d.scale);
-    problem.SetParameterUpperBound(a.u.data(), d.index, d.upper / d.scale);
-  }
   const std::unique_ptr<ceres::LossFunction> loss = make_loss(o.loss, delta);
+  // A problem over a.u with the bounds, on a cost function it owns.
+  auto solve_with = [&](const ceres::LossFunction* robust, ceres::IterationCallback* callback) {
+    ceres::Problem problem;
+    add_curve_block(problem, new detail::CurveCost(&a.layout, &p.obs, a.warm.get(), nullptr, robust), a.u);
+    for (const auto& d : L.params) {
+      if (d.index < 0) continue;
+      problem.SetParameterLowerBound(a.u.data(), d.index, d.lower / d.scale);
+      problem.SetParameterUpperBound(a.u.data(), d.index, d.upper / d.scale);
+    }
+    return detail::solve(problem, limited, callback);
+  };
   std::vector<double> r(static_cast<std::size_t>(n), 0.0);
   const detail::CurveCost raw(&a.layout, &p.obs, a.warm.get());
-  // Reweights from the residuals at a.u; returns the largest change of a weight, or -1 when they cannot be had.
-  auto reweight = [&]() {
-    if (!raw.residuals(a.u.data(), r.data())) return -1.0;
-    double change = 0.0;
-    for (std::size_t i = 0; i < r.size(); ++i) {
-      const double w = loss_at(*loss, r[i]).weight;
-      change = std::max(change, std::fabs(w - weights[i]));
-      weights[i] = w;
-    }
-    return change;
-  };
 
   AbandonCallback abandon(lim.abandon_above_cost);
   if (lim.least_squares_stage) {
-    a.report = detail::solve(problem, limited, &abandon);
+    a.report = solve_with(nullptr, &abandon);
     a.least_squares_cost = a.report.cost;
   } else {
-    // A start that is already (near) the solution: the weights of its residuals first.
-    if (reweight() < 0.0) {
-      a.report.status = FitStatus::failed;
-      a.report.termination = "FAILURE: the start could not be evaluated";
-      return;
-    }
-    a.report.status = FitStatus::converged;
+    a.report.status = FitStatus::converged;  // a start that is already (near) the solution
   }
   a.abandoned = abandon.abandoned;
   if (a.report.status != FitStatus::failed && !a.abandoned && o.loss != LossKind::none) {
-    // The rounds share one iteration budget (the stage limit), at most 30 of them; weights that move by
-    // less than 1e-5 have settled (IRLS converges linearly, and such a change moves the estimate by a
-    // negligible fraction of its standard error).
-    int iterations = a.report.iterations;
-    int budget = lim.max_iterations;
-    bool settled = false;
-    for (int round = 0; round < 30 && budget > 0; ++round) {
-      const double change = reweight();
-      if (change < 0.0) break;
-      // Weights that no longer move (or, in the first round, a least-squares solution whose residuals all
-      // lie inside the threshold: the same function there) end the loop.
-      if (change <= 1e-5 && (round > 0 || lim.least_squares_stage)) {
-        settled = true;
-        break;
+    // The robust stage, unless the least-squares solution is already its solution: every residual inside
+    // the threshold, where rho is the square (a weight rho'(r^2) within 1e-5 of 1).
+    bool needed = !lim.least_squares_stage;
+    if (!needed) {
+      if (!raw.residuals(a.u.data(), r.data())) {
+        a.report.status = FitStatus::failed;
+        a.report.termination = "FAILURE: the least-squares solution could not be evaluated";
+      } else {
+        for (double x : r) needed = needed || std::fabs(loss_at(*loss, x).weight - 1.0) > 1e-5;
       }
-      limited.max_iterations = budget;
-      const detail::SolveReport rep = detail::solve(problem, limited);
-      iterations += rep.iterations;
-      budget -= std::max(rep.iterations, 1);
-      a.report = rep;
-      if (rep.status == FitStatus::failed) break;
     }
-    a.report.iterations = iterations;
-    if (!settled && a.report.status == FitStatus::converged) a.report.status = FitStatus::stopped;
+    if (needed && a.report.status != FitStatus::failed) {
+      const int before = lim.least_squares_stage ? a.report.iterations : 0;
+      a.report = solve_with(loss.get(), nullptr);
+      a.report.iterations += before;
+    }
   }
   if (a.abandoned) a.report.status = FitStatus::stopped;
   // sum rho at the final parameters (an abandoned candidate: at where it stopped, an upper bound).
@@ -1471,6 +1481,15 @@ FitResult fit_titration(const Curve& curve,
           q = std::move(quick);
           continue;
         }
+        if (quick.ok) {
+          // Close enough to be refined: on from where the three iterations stopped.
+          const int done = quick.report.iterations;
+          solve_attempt(quick, p, o, delta, again);
+          quick.report.iterations += done;
+          rescore(quick);
+          q = std::move(quick);
+          continue;
+        }
       }
       // The screening's winner straight to the full limits and tolerances (it is most often the final
       // winner; should the runner-up take over, that one is polished below).
@@ -1568,22 +1587,38 @@ indicators::PhCurve fitted_curve(const FitSummary& fit, const Curve& curve) {
   std::vector<double> pH;
   // Each knot's solved state: the indicator check asks for the pH at hundreds of volumes between knots,
   // and a solve warm-started from the nearest knot costs a few Newton steps instead of a bracketing.
+  // Knot by knot, the fitter's Newton (newton_next; the same balance, tests/fit) where it converges,
+  // chem's bracketing solver from the knot before where it does not.
+  auto fast = std::make_shared<const detail::FastBalance>(fit.chemistry);
   auto states = std::make_shared<std::vector<chem::Equilibrium>>();
   states->reserve(knots.size());
-  chem::Equilibrium warm;
-  for (double v : knots) {
-    const chem::Point<double> pt = titration->solve(v, &warm);
+  chem::detail::BalanceJacobian jac;
+  for (std::size_t i = 0; i < knots.size(); ++i) {
+    chem::Equilibrium s;
+    const bool chain = i >= 1 && (*states)[i - 1].converged && (i < 2 || (*states)[i - 2].converged);
+    if (chain && newton_next(*fast, knots, *states, i, s, jac)) {
+      states->push_back(s);
+      pH.push_back(s.pH());
+      continue;
+    }
+    chem::Equilibrium warm = i >= 1 ? (*states)[i - 1] : chem::Equilibrium{};
+    const chem::Point<double> pt = titration->solve(knots[i], warm.converged ? &warm : nullptr);
     const bool ok = pt.state.converged && std::isfinite(pt.pH);
     pH.push_back(ok ? pt.pH : (pH.empty() ? 7.0 : pH.back()));
     states->push_back(ok ? pt.state : chem::Equilibrium{});
   }
   c.knots_mL = knots;
   c.knots_pH = pH;
-  c.pH_at_mL = [titration, knots, pH, states](double v) {
+  c.pH_at_mL = [titration, fast, knots, pH, states](double v) {
     const auto it = std::lower_bound(knots.begin(), knots.end(), v);
     std::size_t i = std::min(static_cast<std::size_t>(it - knots.begin()), knots.empty() ? 0 : knots.size() - 1);
     if (i > 0 && i < knots.size() && v - knots[i - 1] < knots[i] - v) --i;  // the nearer knot
     chem::Equilibrium start = i < states->size() ? (*states)[i] : chem::Equilibrium{};
+    if (start.converged) {
+      chem::Equilibrium s = start;
+      chem::detail::BalanceJacobian j;
+      if (fast->newton(v, s, j) && std::isfinite(s.pH())) return s.pH();
+    }
     const chem::Point<double> pt = titration->solve(v, start.converged ? &start : nullptr);
     if (pt.state.converged && std::isfinite(pt.pH)) return pt.pH;
     if (pH.empty()) return 7.0;

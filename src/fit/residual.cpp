@@ -26,7 +26,8 @@ void chemical_gradients(const Layout& layout,
                         const Observations& obs,
                         const WarmStates& warm,
                         bool activity,
-                        std::vector<double>& grad) {
+                        std::vector<double>& grad,
+                        std::vector<double>& tangent) {
   using J = ceres::Jet<double, N>;
   std::array<J, kMaxFree> uj{};
   for (int f = 0; f < layout.free_count; ++f) uj[static_cast<std::size_t>(f)] = J(u[f]);
@@ -51,7 +52,11 @@ void chemical_gradients(const Layout& layout,
       L = L0 - (jac.F_x * G - jac.G_x * b.charge) / det;
     }
     const J pH = -(x + L);
-    for (std::size_t c = 0; c < nc; ++c) grad[i * nc + c] = pH.v[static_cast<int>(c)];
+    for (std::size_t c = 0; c < nc; ++c) {
+      grad[i * nc + c] = pH.v[static_cast<int>(c)];
+      tangent[2 * (i * nc + c)] = x.v[static_cast<int>(c)];
+      tangent[2 * (i * nc + c) + 1] = L.v[static_cast<int>(c)];
+    }
   }
 }
 
@@ -60,8 +65,9 @@ void chemical_gradients(const Layout& layout,
 CurveCost::CurveCost(const Layout* layout,
                      const Observations* obs,
                      WarmStates* warm,
-                     const std::vector<double>* weights)
-    : m_layout(layout), m_obs(obs), m_warm(warm), m_weights(weights) {
+                     const std::vector<double>* weights,
+                     const ceres::LossFunction* loss)
+    : m_layout(layout), m_obs(obs), m_warm(warm), m_weights(weights), m_loss(loss) {
   set_num_residuals(static_cast<int>(obs->volume_mL.size()));
   mutable_parameter_block_sizes()->push_back(layout->free_count);
   for (const ParamDef& p : layout->params) {
@@ -104,11 +110,32 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
 
   const std::size_t n = m_obs->volume_mL.size();
   if (!same) {
+    const std::size_t nc = m_chemical.size();
+    const bool predict =
+        warm.tangent_valid && nc > 0 && warm.tangent.size() == 2 * n * nc && warm.tangent_state.size() == n;
+    std::array<double, kMaxFree> du{};
+    for (std::size_t c = 0; c < nc && predict; ++c) {
+      const auto f = static_cast<std::size_t>(m_chemical[c]);
+      du[c] = u[f] - warm.tangent_u[f];
+    }
     for (std::size_t i = 0; i < n; ++i) {
       const double V = m_obs->volume_mL[i];
       chem::Equilibrium& st = warm.state[i];
       chem::detail::BalanceJacobian& jac = warm.jacobian[i];
       ++warm.solves;
+      if (predict) {
+        chem::Equilibrium guess = warm.tangent_state[i];
+        const double* t = &warm.tangent[2 * i * nc];
+        for (std::size_t c = 0; c < nc; ++c) {
+          guess.log10_h += t[2 * c] * du[c];
+          guess.log10_gamma1 += t[2 * c + 1] * du[c];
+        }
+        if (fb.newton(V, guess, jac)) {
+          st = guess;
+          warm.newton_evaluations += st.root_evaluations;
+          continue;
+        }
+      }
       if (fb.newton(V, st, jac)) {
         warm.newton_evaluations += st.root_evaluations;
         continue;
@@ -144,42 +171,60 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
     r[i] = sw * (m_obs->value[i] - predicted);
     if (!std::isfinite(r[i])) return false;
   }
+  const bool robust = weighted && m_loss != nullptr;
+  if (robust) {
+    m_loss_slope.resize(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      double rho[3];
+      const double s = r[i] * r[i];
+      m_loss->Evaluate(s, rho);
+      const double root = std::sqrt(std::max(rho[0], 0.0));
+      // Near r = 0, rho(s) = rho'(0) s: the slope tends to sqrt(rho'(0)).
+      m_loss_slope[i] = root > 1e-150 ? rho[1] * std::fabs(r[i]) / root : std::sqrt(std::max(rho[1], 0.0));
+      r[i] = std::copysign(root, r[i]);
+      if (!std::isfinite(r[i]) || !std::isfinite(m_loss_slope[i])) return false;
+    }
+  }
   if (jacobian == nullptr) return true;
 
   std::fill(jacobian, jacobian + n * static_cast<std::size_t>(k), 0.0);
   const std::size_t nc = m_chemical.size();
   std::vector<double> grad(n * nc, 0.0);
+  warm.tangent.assign(2 * n * nc, 0.0);
   if (nc > 0) {
     const bool activity = fb.activity();
     switch (padded_size(static_cast<int>(nc))) {
       case 1:
-        chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       case 2:
-        chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       case 3:
-        chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       case 4:
-        chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       case 6:
-        chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       case 8:
-        chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       case 10:
-        chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, activity, grad);
+        chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
         break;
       default:
         return false;
     }
+    warm.tangent_state = warm.state;
+    std::copy(u, u + k, warm.tangent_u.begin());
+    warm.tangent_valid = true;
   }
   const double dpred_dpH = ph_signal ? 1.0 : -slope_v;
   for (std::size_t i = 0; i < n; ++i) {
-    const double sw = use_weights ? std::sqrt((*m_weights)[i]) : 1.0;
+    const double sw = (use_weights ? std::sqrt((*m_weights)[i]) : 1.0) * (robust ? m_loss_slope[i] : 1.0);
     double* row = jacobian + i * static_cast<std::size_t>(k);
     for (std::size_t c = 0; c < nc; ++c) row[m_chemical[c]] = -sw * dpred_dpH * grad[i * nc + c];
     if (ph_signal) {

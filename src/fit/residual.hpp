@@ -3,6 +3,7 @@
 #pragma once
 
 #include <ceres/cost_function.h>
+#include <ceres/loss_function.h>
 
 #include <array>
 #include <vector>
@@ -30,6 +31,13 @@ struct WarmStates {
   std::vector<chem::detail::BalanceJacobian> jacobian;
   std::array<double, kMaxFree> u{};  // the scaled parameters they belong to
   bool valid = false;
+  // The states' tangent at the last Jacobian (parameters tangent_u, states tangent_state): d x / d u and
+  // d L / d u for each chemical parameter, (dx, dL) pairs, reading by reading. A new parameter set starts
+  // each reading's Newton solve from the tangent's prediction, one iteration closer than the last state.
+  std::vector<double> tangent;
+  std::vector<chem::Equilibrium> tangent_state;
+  std::array<double, kMaxFree> tangent_u{};
+  bool tangent_valid = false;
   long evaluations = 0;  // calls (for the benchmark)
   long jacobian_evaluations = 0;
   long solves = 0;              // point solves
@@ -45,9 +53,14 @@ struct WarmStates {
 }
 
 // Measured minus predicted reading at every observation, times the square
-// root of its weight (the robust loss enters through weights: iteratively
-// reweighted least squares, see fit.cpp). One parameter block: the model's
-// free parameters, scaled (Layout::value).
+// root of its weight. With a robust loss rho (Ceres' convention: rho of the
+// squared residual), each weighted residual r is returned as
+// sign(r) sqrt(rho(r^2)) and its Jacobian row scaled by rho'(r^2) r /
+// sqrt(rho(r^2)): the sum of squares is then sum rho(r_i^2) and its gradient
+// the robust one, so one least-squares solve minimises the robust cost
+// (Triggs et al., "Bundle adjustment - a modern synthesis", 2000, section
+// 4.3: the square-root form of a robust cost). One parameter block: the
+// model's free parameters, scaled (Layout::value).
 //
 // The chemistry is solved in double by a warm Newton step (chem's bracketing
 // solver as the fallback). Derivatives with respect to the chemical
@@ -65,11 +78,13 @@ struct WarmStates {
 class CurveCost final : public ceres::CostFunction {
  public:
   // weights: one per observation, or null for 1; the values may change
-  // between solves (they are read at every evaluation).
+  // between solves (they are read at every evaluation). loss: the robust
+  // loss, or null for least squares (not owned; it must outlive the cost).
   CurveCost(const Layout* layout,
             const Observations* obs,
             WarmStates* warm,
-            const std::vector<double>* weights = nullptr);
+            const std::vector<double>* weights = nullptr,
+            const ceres::LossFunction* loss = nullptr);
 
   bool Evaluate(double const* const* parameters, double* residuals, double** jacobians) const override;
 
@@ -83,7 +98,9 @@ class CurveCost final : public ceres::CostFunction {
   const Observations* m_obs;
   WarmStates* m_warm;
   const std::vector<double>* m_weights;
-  std::vector<int> m_chemical;  // free indices of the chemical parameters
+  const ceres::LossFunction* m_loss;
+  mutable std::vector<double> m_loss_slope;  // d(robust residual)/d(residual) at the last evaluation
+  std::vector<int> m_chemical;               // free indices of the chemical parameters
 };
 
 }  // namespace veq::fit::detail

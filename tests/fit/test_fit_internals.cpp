@@ -3,6 +3,8 @@
 // chem's bracketed solve, and the autodiff Jacobian through the root matches central differences.
 #include <ceres/jet.h>
 
+#include <algorithm>
+#include <cmath>
 #include <memory>
 
 #include "fit/balance.hpp"
@@ -86,6 +88,8 @@ TEST_CASE("fast balance: the warm Newton solve equals chem's bracketed solve", "
 TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by hand) matches central differences",
           "[fit][internals]") {
   const auto signal = GENERATE(veq::SignalKind::ph, veq::SignalKind::mv);
+  // Least squares, or the robust loss in square-root form (residual sign(r) sqrt(rho(r^2))).
+  const bool robust = GENERATE(false, true);
   // A diprotic acid with titrant carbonate (parameters c, pKa1, pKa2, electrode, carbonate), Davies.
   d::Layout L;
   L.shape = d::shape_of(veq::fit::ModelKind::diprotic_acid);
@@ -149,12 +153,21 @@ TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by h
   // Weights as the robust loss sets them (here arbitrary, between 0.2 and 1).
   std::vector<double> weights;
   for (int i = 0; i < static_cast<int>(obs.volume_mL.size()); ++i) weights.push_back(0.2 + 0.8 * ((i * 7) % 10) / 9.0);
-  auto cost = std::make_unique<d::CurveCost>(&L, &obs, &warm, &weights);
+  // Huber threshold inside the spread of these residuals, so that both branches of the loss are crossed.
+  const ceres::HuberLoss huber(signal == veq::SignalKind::ph ? 0.3 : 15.0);
+  auto cost = std::make_unique<d::CurveCost>(&L, &obs, &warm, &weights, robust ? &huber : nullptr);
   REQUIRE(cost);
   std::vector<double> r(static_cast<std::size_t>(n)), jac(static_cast<std::size_t>(n * k));
   const double* params[] = {u.data()};
   double* jacs[] = {jac.data()};
   REQUIRE(cost->Evaluate(params, r.data(), jacs));
+  if (robust) {
+    // Both sides of the threshold are exercised (sqrt(rho(r^2)) > delta exactly when |r| > delta).
+    const double delta = signal == veq::SignalKind::ph ? 0.3 : 15.0;
+    const auto beyond = std::count_if(r.begin(), r.end(), [&](double x) { return std::fabs(x) > delta; });
+    CHECK(beyond > 0);
+    CHECK(beyond < n);
+  }
   for (int col = 0; col < k; ++col) {
     std::vector<double> up = u, dn = u;
     const double h = 1e-6 * std::max(1.0, std::fabs(u[static_cast<std::size_t>(col)]));
