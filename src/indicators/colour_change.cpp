@@ -115,33 +115,42 @@ Crossing find_crossing(const PhCurve& curve, double target_pH) {
   const double dir = curve.direction >= 0 ? 1.0 : -1.0;
   const auto side = [&](double v) { return dir * (curve.pH_at_mL(v) - target_pH); };
   // Knots where the model gives no finite pH are skipped (a precondition
-  // violation, not worth a NaN in a report).
-  std::vector<std::size_t> usable;
-  std::vector<double> s;
+  // violation, not worth a NaN in a report). The signs come from the cached
+  // knot pH values when there are any (no allocation: the indicator check
+  // asks this for every indicator and endpoint), else from the curve, once each.
+  std::vector<double> computed;
   const bool cached = curve.knots_pH.size() == k.size();
+  if (!cached) {
+    computed.reserve(k.size());
+    for (double v : k) computed.push_back(side(v));
+  }
+  const auto sign_at = [&](std::size_t i) { return cached ? dir * (curve.knots_pH[i] - target_pH) : computed[i]; };
+  // The last usable knot still on the near side of the target, and the next usable one after it.
+  bool any = false;
+  std::optional<std::size_t> last_near;
   for (std::size_t i = 0; i < k.size(); ++i) {
-    const double si = cached ? dir * (curve.knots_pH[i] - target_pH) : side(k[i]);
+    const double si = sign_at(i);
     if (!std::isfinite(si)) continue;
-    usable.push_back(i);
-    s.push_back(si);
+    any = true;
+    if (si < 0.0) last_near = i;
   }
-  std::optional<std::size_t> last_near;  // last knot still on the near side of the target
-  for (std::size_t j = 0; j < s.size(); ++j) {
-    if (s[j] < 0.0) last_near = j;
-  }
-  if (s.empty()) return out;
+  if (!any) return out;
   if (!last_near) {
     out.status = CrossingStatus::past_at_start;
     return out;
   }
-  if (*last_near + 1 >= s.size()) {
+  std::optional<std::size_t> next;
+  for (std::size_t i = *last_near + 1; i < k.size() && !next; ++i) {
+    if (std::isfinite(sign_at(i))) next = i;
+  }
+  if (!next) {
     out.status = CrossingStatus::not_reached;
     return out;
   }
-  const double a = k[usable[*last_near]];
-  const double b = k[usable[*last_near + 1]];
-  const double fa = s[*last_near];
-  const double fb = s[*last_near + 1];
+  const double a = k[*last_near];
+  const double b = k[*next];
+  const double fa = sign_at(*last_near);
+  const double fb = sign_at(*next);
   out.status = CrossingStatus::found;
   out.bracket_low_mL = a;
   out.bracket_high_mL = b;
