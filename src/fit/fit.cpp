@@ -652,7 +652,7 @@ class AbandonCallback : public ceres::IterationCallback {
  public:
   explicit AbandonCallback(double best_cost) : m_best(best_cost) {}
   ceres::CallbackReturnType operator()(const ceres::IterationSummary& s) override {
-    const bool far = s.iteration >= 4 && s.cost > 8.0 * m_best;
+    const bool far = s.iteration >= 2 && s.cost > 8.0 * m_best;
     const bool crawling = s.iteration >= 3 && s.cost > m_best && s.cost_change >= 0.0 && s.cost_change < 1e-3 * s.cost;
     if (far || crawling) {
       abandoned = true;
@@ -1346,7 +1346,7 @@ FitResult fit_titration(const Curve& curve,
   const Prepared& ps = screening ? thinned : p;
 
   // Candidates get fewer iterations and a looser cost tolerance than a forced model (a wrong model need not
-  // converge to lose), and one still 8 times the best least-squares cost after 4 iterations is abandoned:
+  // converge to lose), and one still 8 times the best least-squares cost after 2 iterations is abandoned:
   // its criterion would then be worse by more than n ln 8.
   // The cost tolerance of a candidate, 0.02/n, leaves its criterion within about n x 0.02 x (a few) < 1 of
   // its converged value: far below the differences (>= 2) that decide.
@@ -1447,7 +1447,16 @@ FitResult fit_titration(const Curve& curve,
   if (screening) {
     const std::size_t screened_winner = chosen;
     // The screening's best two (by the same rule), fitted again to every reading from where they stopped.
-    const std::size_t second = best_by_rule(chosen);
+    // When every other candidate was abandoned, the best of those is the second: it gets the brief refit
+    // below, so that the report still names a runner-up compared on every reading.
+    std::size_t second = best_by_rule(chosen);
+    if (second == best_per_shape.size()) {
+      for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
+        const Attempt& q = best_per_shape[i];
+        if (i == chosen || !q.ok || !q.abandoned) continue;
+        if (second == best_per_shape.size() || q.score < best_per_shape[second].score) second = i;
+      }
+    }
     // A candidate's entry after its refit on every reading.
     auto rescore = [&](const Attempt& a) {
       for (auto& c : result.candidates) {
