@@ -25,7 +25,7 @@ ceres::Solver::Options solver_options(const FitOptions& options) {
   ceres::Solver::Options o;
   o.minimizer_type = ceres::TRUST_REGION;
   o.trust_region_strategy_type = ceres::LEVENBERG_MARQUARDT;
-  o.linear_solver_type = ceres::DENSE_QR;
+  o.linear_solver_type = ceres::DENSE_NORMAL_CHOLESKY;
   o.num_threads = 1;
   o.max_num_iterations = options.max_iterations;
   o.function_tolerance = options.function_tolerance;
