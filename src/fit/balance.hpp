@@ -65,14 +65,19 @@ class FastBalance {
 
   // The balance after volume_mL of titrant at (x, L).
   [[nodiscard]] BalancePoint eval(double volume_mL, double x, double L) const {
+    return eval_diluted(m_V0 / (m_V0 + volume_mL), x, L);
+  }
+
+  // The same with the sample's dilution factor d = V0 / (V0 + V) given (Newton keeps V and so d).
+  [[nodiscard]] BalancePoint eval_diluted(double d, double x, double L) const {
     constexpr double ln10 = 2.302585092994045684;
-    const double d = m_V0 / (m_V0 + volume_mL);
     const double e = 1.0 - d;
     const double h = std::exp(ln10 * x);
     // q = gamma1^2 = 10^(2L); conditional constants K'_j = K_j q^(z0 - j), Kw' = Kw / q.
     const double q = m_activity ? std::exp(2.0 * ln10 * L) : 1.0;
     const double inv_q = 1.0 / q;
-    const double oh = m_Kw * inv_q / h;
+    const double u = 1.0 / h;
+    const double oh = m_Kw * inv_q * u;
     BalancePoint b;
     b.F = h - oh + d * m_fixed_charge_sample + e * m_fixed_charge_titrant;
     b.F_x = ln10 * (h + oh);
@@ -80,14 +85,13 @@ class FastBalance {
     b.I = 0.5 * (h + oh) + d * m_fixed_ionic_sample + e * m_fixed_ionic_titrant;
     b.I_x = 0.5 * ln10 * (h - oh);
     b.I_L = -ln10 * oh;
-    const double u = 1.0 / h;
     for (std::size_t k = 0; k < m_count; ++k) {
       const Item& it = m_items[k];
       std::array<double, chem::kMaxSteps + 1> a{};
       a[0] = 1.0;
       double S = 1.0;
       // q^(z0 - j) for j = 1: start there and divide by q for each further step.
-      double qp = ipow(q, it.z0 - 1);
+      double qp = it.z0 - 1 >= 0 ? ipow(q, it.z0 - 1) : ipow(inv_q, 1 - it.z0);
       for (int j = 1; j <= it.steps; ++j) {
         a[j] = a[j - 1] * it.K[j - 1] * qp * u;
         S += a[j];
@@ -95,9 +99,10 @@ class FastBalance {
       }
       const double z0 = static_cast<double>(it.z0);
       double mj = 0.0, ms = 0.0, mq2 = 0.0;
+      const double inv_S = 1.0 / S;
       for (int j = 0; j <= it.steps; ++j) {
         const double jj = static_cast<double>(j);
-        a[j] /= S;
+        a[j] *= inv_S;
         mj += jj * a[j];
         ms += (2.0 * jj * z0 - jj * (jj + 1.0)) * a[j];
         mq2 += (z0 - jj) * (z0 - jj) * a[j];
@@ -127,8 +132,11 @@ class FastBalance {
   // Davies residual G = L + A g(I) and its slopes, from a balance point.
   void davies(const BalancePoint& b, double L, double& G, double& G_x, double& G_L) const {
     const double I = b.I > 1e-300 ? b.I : 1e-300;
-    G = L + m_A * chem::davies_g(I, m_b);
-    const double gp = m_A * chem::davies_g_derivative(I, m_b);
+    // chem::davies_g and chem::davies_g_derivative, sharing one square root.
+    const double sI = std::sqrt(I);
+    const double one_s = 1.0 + sI;
+    G = L + m_A * (sI / one_s - m_b * I);
+    const double gp = m_A * (1.0 / (2.0 * sI * one_s * one_s) - m_b);
     G_x = gp * b.I_x;
     G_L = 1.0 + gp * b.I_L;
   }
@@ -147,8 +155,9 @@ class FastBalance {
     double x = eq.log10_h;
     double L = m_activity ? eq.log10_gamma1 : 0.0;
     if (!std::isfinite(x) || !std::isfinite(L)) return false;
+    const double dilution = m_V0 / (m_V0 + volume_mL);
     for (int it = 0; it < max_iterations; ++it) {
-      const BalancePoint b = eval(volume_mL, x, L);
+      const BalancePoint b = eval_diluted(dilution, x, L);
       double dx = 0.0, dL = 0.0;
       if (m_activity) {
         double G = 0.0, G_x = 0.0, G_L = 1.0;
