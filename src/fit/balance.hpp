@@ -26,36 +26,94 @@ struct BalancePoint {
   double I = 0.0, I_x = 0.0, I_L = 0.0;
 };
 
-class FastBalance {
- public:
-  static constexpr std::size_t kMaxItems = 6;
+inline constexpr std::size_t kMaxBalanceItems = 6;
+// The constants of the balance: 5 fixed ones, then per item its concentration and its steps' ln K.
+inline constexpr std::size_t kMaxBalanceConstants =
+    5 + kMaxBalanceItems * (1 + static_cast<std::size_t>(chem::kMaxSteps));
 
-  explicit FastBalance(const chem::Model<double>& m) {
-    m_V0 = m.sample_volume_mL;
-    m_fixed_charge_sample = m.strong_base_mol_L - m.strong_acid_mol_L;
-    m_fixed_ionic_sample = 0.5 * (m.strong_acid_mol_L + m.strong_base_mol_L) + m.background_ionic_strength_mol_L;
-    m_fixed_charge_titrant = static_cast<double>(m.titrant_sign) * m.titrant_conc_mol_L;
-    m_fixed_ionic_titrant = 0.5 * m.titrant_conc_mol_L;
-    m_Kw = std::pow(10.0, -m.pKw);
-    m_activity = m.activity == chem::ActivityModel::davies;
-    m_A = m.davies_A;
-    m_b = m.davies_b;
-    auto add = [&](const chem::Protolyte<double>& p, bool titrant) {
-      if (m_count >= kMaxItems || p.steps < 1) return;
-      Item& it = m_items[m_count++];
+// The model's constants as the balance uses them, in the scalar type T: double for FastBalance, Jets of the
+// fit's chemical parameters for their derivatives (the fit's Jacobian, residual.cpp), one definition for both.
+template <typename T>
+struct BalanceConstants {
+  struct Item {
+    int steps = 1;
+    int z0 = 0;
+    bool titrant = false;
+    T conc{};
+    std::array<T, chem::kMaxSteps> K{};
+  };
+  T V0{}, fixed_charge_sample{}, fixed_ionic_sample{}, fixed_charge_titrant{}, fixed_ionic_titrant{}, Kw{};
+  std::array<Item, kMaxBalanceItems> items{};
+  std::size_t count = 0;
+
+  explicit BalanceConstants(const chem::Model<T>& m) {
+    using std::pow;
+    V0 = m.sample_volume_mL;
+    fixed_charge_sample = m.strong_base_mol_L - m.strong_acid_mol_L;
+    fixed_ionic_sample = 0.5 * (m.strong_acid_mol_L + m.strong_base_mol_L) + m.background_ionic_strength_mol_L;
+    fixed_charge_titrant = static_cast<double>(m.titrant_sign) * m.titrant_conc_mol_L;
+    fixed_ionic_titrant = 0.5 * m.titrant_conc_mol_L;
+    Kw = pow(10.0, -m.pKw);
+    auto add = [&](const chem::Protolyte<T>& p, bool titrant) {
+      if (count >= kMaxBalanceItems || p.steps < 1) return;
+      Item& it = items[count++];
       it.steps = p.steps;
       it.z0 = p.top_charge;
       it.titrant = titrant;
       it.conc = p.conc_mol_L;
-      for (int j = 0; j < p.steps; ++j) it.K[j] = std::pow(10.0, -p.pKa[j]);
+      for (int j = 0; j < p.steps; ++j)
+        it.K[static_cast<std::size_t>(j)] = pow(10.0, -p.pKa[static_cast<std::size_t>(j)]);
       if (!titrant) {
         const double q_added = static_cast<double>(p.top_charge - p.added_form);
-        m_fixed_charge_sample -= q_added * p.conc_mol_L;
-        m_fixed_ionic_sample += 0.5 * std::fabs(q_added) * p.conc_mol_L;
+        fixed_charge_sample -= q_added * p.conc_mol_L;
+        fixed_ionic_sample += 0.5 * std::fabs(q_added) * p.conc_mol_L;
       }
     };
     for (const auto& p : m.protolytes) add(p, false);
     if (m.titrant_carbonate.steps > 0 && m.titrant_carbonate.conc_mol_L > 0.0) add(m.titrant_carbonate, true);
+  }
+
+  // The constants in FastBalance::constant_slopes' order (ln K for the equilibrium constants); their number.
+  std::size_t flatten(T* out) const {
+    using std::log;
+    std::size_t k = 0;
+    out[k++] = fixed_charge_sample;
+    out[k++] = fixed_ionic_sample;
+    out[k++] = fixed_charge_titrant;
+    out[k++] = fixed_ionic_titrant;
+    out[k++] = log(Kw);
+    for (std::size_t i = 0; i < count; ++i) {
+      out[k++] = items[i].conc;
+      for (int j = 0; j < items[i].steps; ++j) out[k++] = log(items[i].K[static_cast<std::size_t>(j)]);
+    }
+    return k;
+  }
+};
+
+class FastBalance {
+ public:
+  static constexpr std::size_t kMaxItems = kMaxBalanceItems;
+
+  explicit FastBalance(const chem::Model<double>& m) {
+    const BalanceConstants<double> c(m);
+    m_V0 = c.V0;
+    m_fixed_charge_sample = c.fixed_charge_sample;
+    m_fixed_ionic_sample = c.fixed_ionic_sample;
+    m_fixed_charge_titrant = c.fixed_charge_titrant;
+    m_fixed_ionic_titrant = c.fixed_ionic_titrant;
+    m_Kw = c.Kw;
+    m_activity = m.activity == chem::ActivityModel::davies;
+    m_A = m.davies_A;
+    m_b = m.davies_b;
+    m_count = c.count;
+    for (std::size_t i = 0; i < c.count; ++i) {
+      Item& it = m_items[i];
+      it.steps = c.items[i].steps;
+      it.z0 = c.items[i].z0;
+      it.titrant = c.items[i].titrant;
+      it.conc = c.items[i].conc;
+      it.K = c.items[i].K;
+    }
   }
 
   [[nodiscard]] bool activity() const { return m_activity; }
@@ -139,6 +197,78 @@ class FastBalance {
     const double gp = m_A * (1.0 / (2.0 * sI * one_s * one_s) - m_b);
     G_x = gp * b.I_x;
     G_L = 1.0 + gp * b.I_L;
+  }
+
+  // dg/dI of Davies' function times A at ionic strength I (as davies() computes it).
+  [[nodiscard]] double davies_slope(double I) const {
+    I = I > 1e-300 ? I : 1e-300;
+    const double sI = std::sqrt(I);
+    const double one_s = 1.0 + sI;
+    return m_A * (1.0 / (2.0 * sI * one_s * one_s) - m_b);
+  }
+
+  // The partial derivatives of F and I at (x, L) after volume_mL with respect to the constants, in
+  // BalanceConstants::flatten's order (d/d ln K for the equilibrium constants): F and I are linear in the
+  // fixed terms and the concentrations; a step's constant K_j multiplies the unnormalised fractions a_m of
+  // every form m >= j, so d(mean of any f(m))/d ln K_j = sum over m >= j of f(m) a_m - (mean f) sum over
+  // m >= j of a_m (the fractions normalised). Returns their number; I_out is I at the point.
+  std::size_t constant_slopes(double volume_mL, double x, double L, double* dF, double* dI, double& I_out) const {
+    constexpr double ln10 = 2.302585092994045684;
+    const double d = m_V0 / (m_V0 + volume_mL);
+    const double e = 1.0 - d;
+    const double h = std::exp(ln10 * x);
+    const double q = m_activity ? std::exp(2.0 * ln10 * L) : 1.0;
+    const double inv_q = 1.0 / q;
+    const double u = 1.0 / h;
+    const double oh = m_Kw * inv_q * u;
+    std::size_t k = 0;
+    dF[k] = d, dI[k++] = 0.0;
+    dF[k] = 0.0, dI[k++] = d;
+    dF[k] = e, dI[k++] = 0.0;
+    dF[k] = 0.0, dI[k++] = e;
+    dF[k] = -oh, dI[k++] = 0.5 * oh;  // oh = Kw / (q h): d/d ln Kw
+    double I = 0.5 * (h + oh) + d * m_fixed_ionic_sample + e * m_fixed_ionic_titrant;
+    for (std::size_t n = 0; n < m_count; ++n) {
+      const Item& it = m_items[n];
+      std::array<double, chem::kMaxSteps + 1> a{};
+      a[0] = 1.0;
+      double S = 1.0;
+      double qp = it.z0 - 1 >= 0 ? ipow(q, it.z0 - 1) : ipow(inv_q, 1 - it.z0);
+      for (int j = 1; j <= it.steps; ++j) {
+        a[j] = a[j - 1] * it.K[j - 1] * qp * u;
+        S += a[j];
+        qp *= inv_q;
+      }
+      const double z0 = static_cast<double>(it.z0);
+      const double inv_S = 1.0 / S;
+      double mj = 0.0, mq2 = 0.0;
+      for (int j = 0; j <= it.steps; ++j) {
+        const double jj = static_cast<double>(j);
+        a[j] *= inv_S;
+        mj += jj * a[j];
+        mq2 += (z0 - jj) * (z0 - jj) * a[j];
+      }
+      const double w = it.titrant ? e : d;
+      const double c = w * it.conc;
+      dF[k] = w * (z0 - mj), dI[k++] = 0.5 * w * mq2;
+      // Tail sums over m >= j, from the top form down.
+      std::array<double, chem::kMaxSteps + 1> P{}, Sm{}, Sq{};
+      double p = 0.0, sm = 0.0, sq = 0.0;
+      for (int m = it.steps; m >= 1; --m) {
+        const double mm = static_cast<double>(m);
+        p += a[m];
+        sm += mm * a[m];
+        sq += (z0 - mm) * (z0 - mm) * a[m];
+        P[m] = p, Sm[m] = sm, Sq[m] = sq;
+      }
+      for (int j = 1; j <= it.steps; ++j) {
+        dF[k] = -c * (Sm[j] - mj * P[j]);
+        dI[k++] = 0.5 * c * (Sq[j] - mq2 * P[j]);
+      }
+      I += 0.5 * c * mq2;
+    }
+    I_out = I;
+    return k;
   }
 
   // Newton on (x, L) (on x alone for an ideal solution) from the state in

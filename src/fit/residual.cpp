@@ -16,16 +16,18 @@ bool is_chemical(Role r) {
          r == Role::carbonate;
 }
 
-// d pH / d u for the chemical parameters at every reading, in Jets of width N (>= their number): the
-// templated chemistry evaluated once at the converged (x0, L0) of each reading, and one Newton step in
-// the Jet type with the double Jacobian there (implicit function theorem).
+// d pH / d u for the chemical parameters at every reading (and the states' tangent, d x / d u and d L / d u),
+// by the implicit function theorem at the converged (x0, L0) of each reading with the 2x2 Jacobian there:
+// d(x, L)/du = -J^-1 d(F, G)/du. d(F, G)/du = the balance's slopes in its constants (in double,
+// FastBalance::constant_slopes) times the constants' derivatives in u, from the model built once in Jets of
+// width N (>= the number of chemical parameters), so no reading is evaluated in Jets.
 template <int N>
 void chemical_gradients(const Layout& layout,
                         const double* u,
                         const std::vector<int>& chemical,
                         const Observations& obs,
                         const WarmStates& warm,
-                        bool activity,
+                        const FastBalance& fb,
                         std::vector<double>& grad,
                         std::vector<double>& tangent) {
   using J = ceres::Jet<double, N>;
@@ -34,28 +36,45 @@ void chemical_gradients(const Layout& layout,
   for (std::size_t c = 0; c < chemical.size(); ++c)
     uj[static_cast<std::size_t>(chemical[c])].v[static_cast<int>(c)] = 1.0;
   const chem::Model<J> mt = layout.model(uj.data());
+  const BalanceConstants<J> constants(mt);
+  std::array<J, kMaxBalanceConstants> flat{};
+  const std::size_t np = constants.flatten(flat.data());
   const std::size_t nc = chemical.size();
+  // The constants that move with the parameters (most do not: their rows are skipped).
+  std::array<std::size_t, kMaxBalanceConstants> moving{};
+  std::size_t nm = 0;
+  for (std::size_t q = 0; q < np; ++q) {
+    bool any = false;
+    for (std::size_t c = 0; c < nc; ++c) any = any || flat[q].v[static_cast<int>(c)] != 0.0;
+    if (any) moving[nm++] = q;
+  }
+  const bool activity = fb.activity();
+  std::array<double, kMaxBalanceConstants> dF{}, dI{};
   for (std::size_t i = 0; i < obs.volume_mL.size(); ++i) {
     const chem::Equilibrium& st = warm.state[i];
     const chem::detail::BalanceJacobian& jac = warm.jacobian[i];
-    const J x0(st.log10_h);
-    const J L0(st.log10_gamma1);
-    const chem::BalanceValue<J> b = chem::charge_balance(mt, J(obs.volume_mL[i]), x0, L0);
-    J x, L;
-    if (!activity) {
-      x = x0 - b.charge / jac.F_x;
-      L = J(0.0);
-    } else {
-      const J G = L0 + mt.davies_A * chem::davies_g(b.ionic_strength, mt.davies_b);
-      const double det = jac.F_x * jac.G_L - jac.F_L * jac.G_x;
-      x = x0 - (jac.G_L * b.charge - jac.F_L * G) / det;
-      L = L0 - (jac.F_x * G - jac.G_x * b.charge) / det;
-    }
-    const J pH = -(x + L);
+    double I = 0.0;
+    fb.constant_slopes(obs.volume_mL[i], st.log10_h, st.log10_gamma1, dF.data(), dI.data(), I);
+    const double gp = activity ? fb.davies_slope(I) : 0.0;
+    const double det = jac.F_x * jac.G_L - jac.F_L * jac.G_x;
     for (std::size_t c = 0; c < nc; ++c) {
-      grad[i * nc + c] = pH.v[static_cast<int>(c)];
-      tangent[2 * (i * nc + c)] = x.v[static_cast<int>(c)];
-      tangent[2 * (i * nc + c) + 1] = L.v[static_cast<int>(c)];
+      double Fu = 0.0, Iu = 0.0;
+      for (std::size_t m = 0; m < nm; ++m) {
+        const double dq = flat[moving[m]].v[static_cast<int>(c)];
+        Fu += dF[moving[m]] * dq;
+        Iu += dI[moving[m]] * dq;
+      }
+      double dx = 0.0, dL = 0.0;
+      if (!activity) {
+        dx = -Fu / jac.F_x;
+      } else {
+        const double Gu = gp * Iu;
+        dx = -(jac.G_L * Fu - jac.F_L * Gu) / det;
+        dL = -(jac.F_x * Gu - jac.G_x * Fu) / det;
+      }
+      grad[i * nc + c] = -(dx + dL);
+      tangent[2 * (i * nc + c)] = dx;
+      tangent[2 * (i * nc + c) + 1] = dL;
     }
   }
 }
@@ -192,28 +211,27 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
   std::vector<double> grad(n * nc, 0.0);
   warm.tangent.assign(2 * n * nc, 0.0);
   if (nc > 0) {
-    const bool activity = fb.activity();
     switch (padded_size(static_cast<int>(nc))) {
       case 1:
-        chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       case 2:
-        chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<2>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       case 3:
-        chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<3>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       case 4:
-        chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<4>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       case 6:
-        chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<6>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       case 8:
-        chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<8>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       case 10:
-        chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, activity, grad, warm.tangent);
+        chemical_gradients<10>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);
         break;
       default:
         return false;

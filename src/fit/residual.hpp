@@ -47,7 +47,8 @@ struct WarmStates {
 
 // Jet widths 5, 7 and 9 cost more than 6, 8 and 10 (Eigen vectorises the
 // even ones; measured for chem::charge_balance: 294 ns at 5, 220 ns at 6,
-// 307 ns at 7, 254 ns at 8): derivative directions are padded to even widths.
+// 307 ns at 7, 254 ns at 8): derivative directions are padded to even widths
+// (the model is now built once per Jacobian in Jets, no reading is).
 [[nodiscard]] inline int padded_size(int k) {
   return (k >= 5 && k % 2 == 1) ? k + 1 : k;
 }
@@ -64,10 +65,12 @@ struct WarmStates {
 //
 // The chemistry is solved in double by a warm Newton step (chem's bracketing
 // solver as the fallback). Derivatives with respect to the chemical
-// parameters (concentrations, pKa values, titer, carbonate) come from the
-// templated chemistry in Ceres Jets of exactly that many directions, through
-// the root by one Newton step in the Jet type (implicit function theorem), as
-// in chem::Titration::solve; the electrode enters the prediction linearly
+// parameters (concentrations, pKa values, titer, carbonate) come through the
+// root by the implicit function theorem, d(x, L)/du = -J^-1 d(F, G)/du at each
+// reading's solution, with d(F, G)/du = the balance's slopes in its constants
+// (FastBalance::constant_slopes, in double) times the constants' derivatives
+// in u (BalanceConstants of the model built once in Ceres Jets of exactly that
+// many directions); the electrode enters the prediction linearly
 // (pH + offset, or E0 - slope x pH), so its columns are written directly:
 // d/d offset = d/d E0 = -1, d/d slope = pH (times the scale and the weight).
 // tests/fit checks the whole Jacobian against central differences.

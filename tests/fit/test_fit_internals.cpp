@@ -85,11 +85,14 @@ TEST_CASE("fast balance: the warm Newton solve equals chem's bracketed solve", "
   }
 }
 
-TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by hand) matches central differences",
-          "[fit][internals]") {
+TEST_CASE(
+    "the Jacobian (balance slopes times the constants' Jets, electrode columns by hand) matches central differences",
+    "[fit][internals]") {
   const auto signal = GENERATE(veq::SignalKind::ph, veq::SignalKind::mv);
   // Least squares, or the robust loss in square-root form (residual sign(r) sqrt(rho(r^2))).
   const bool robust = GENERATE(false, true);
+  // Davies activity (the 2x2 implicit step in x and L) or an ideal solution (x alone).
+  const bool ideal = GENERATE(false, true);
   // A diprotic acid with titrant carbonate (parameters c, pKa1, pKa2, electrode, carbonate), Davies.
   d::Layout L;
   L.shape = d::shape_of(veq::fit::ModelKind::diprotic_acid);
@@ -103,6 +106,7 @@ TEST_CASE("the Jacobian (Jets through the charge balance, electrode columns by h
   t.conc_mol_L = 0.1;
   t.carbonate_fraction = 0.01;
   L.base = chem::build_model(s, t);
+  if (ideal) L.base.activity = chem::ActivityModel::ideal;
   L.signal = signal;
   L.nominal_titrant_mol_L = 0.1;
   auto par = [](std::string name, d::Role role, double initial, double scale, int index, int step = 0) {
