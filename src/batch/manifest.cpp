@@ -115,7 +115,7 @@ ordered_json analysed_row(const Analysis& a, RunStatus& status) {
     ej["uncertainty_mL"] = rounded(e.uncertainty_mL, 6);
     ej[ph ? "pH" : "mV"] = rounded(e.value, ph ? 4 : 3);
     ej["flags"] = e.flags;
-    list.push_back(ej);
+    list.push_back(std::move(ej));
   }
   if (eps.empty()) {
     status = RunStatus::no_endpoint;
@@ -176,10 +176,10 @@ ordered_json analysed_row(const Analysis& a, RunStatus& status) {
   ordered_json row;
   row["id"] = a.run.facts.sample_id;
   row["status"] = std::string(to_string(status));
-  row["endpoints"] = list;
-  row["result"] = result;
-  row["flags"] = flags;
-  row["error"] = error;
+  row["endpoints"] = std::move(list);
+  row["result"] = std::move(result);
+  row["flags"] = std::move(flags);
+  row["error"] = std::move(error);
   if (!values.empty()) row["results"] = values;  // for replicate statistics
   return row;
 }

@@ -85,19 +85,19 @@ ordered_json fit_json(const Analysis& a) {
       q["ci95"] = nullptr;
     q["unit"] = p.unit;
     q["fixed"] = p.fixed;
-    params.push_back(q);
+    params.push_back(std::move(q));
   }
-  j["parameters"] = params;
+  j["parameters"] = std::move(params);
   ordered_json corr;
   corr["parameters"] = b.correlation_names;
   ordered_json m = ordered_json::array();
   for (const auto& row : b.correlation) {
     ordered_json jr = ordered_json::array();
     for (double c : row) jr.push_back(rounded(c, 4));
-    m.push_back(jr);
+    m.push_back(std::move(jr));
   }
-  corr["matrix"] = m;
-  j["correlation"] = corr;
+  corr["matrix"] = std::move(m);
+  j["correlation"] = std::move(corr);
   ordered_json veq = ordered_json::array(), veq_u = ordered_json::array(), veq_ep = ordered_json::array();
   ordered_json beyond = ordered_json::array();
   for (const auto& fe : b.equivalence) {
@@ -109,10 +109,10 @@ ordered_json fit_json(const Analysis& a) {
     veq_u.push_back(fe.uncertainty_mL ? rounded(*fe.uncertainty_mL, 6) : ordered_json(nullptr));
     veq_ep.push_back(fe.endpoint_index > 0 ? ordered_json(fe.endpoint_index) : ordered_json(nullptr));
   }
-  j["equivalence_volumes_mL"] = veq;
-  j["equivalence_uncertainties_mL"] = veq_u;
-  j["equivalence_endpoints"] = veq_ep;
-  j["equivalence_beyond_readings_mL"] = beyond;
+  j["equivalence_volumes_mL"] = std::move(veq);
+  j["equivalence_uncertainties_mL"] = std::move(veq_u);
+  j["equivalence_endpoints"] = std::move(veq_ep);
+  j["equivalence_beyond_readings_mL"] = std::move(beyond);
   j["residual_unit"] = ph ? "pH" : "mV";
   j["residual_sd"] = significant(b.residual_sd, 3);
   j["scale_sd"] = significant(b.scale_sd, 3);
@@ -123,7 +123,7 @@ ordered_json fit_json(const Analysis& a) {
     ordered_json ru;
     ru["model"] = r.runner_up->model;
     ru["score"] = rounded(r.runner_up->score, 3);
-    j["runner_up"] = ru;
+    j["runner_up"] = std::move(ru);
   } else {
     j["runner_up"] = nullptr;
   }
@@ -134,9 +134,9 @@ ordered_json fit_json(const Analysis& a) {
     cj["score"] = rounded(c.score, 3);
     cj["free_parameters"] = c.free_parameters;
     cj["readings"] = c.readings;
-    cands.push_back(cj);
+    cands.push_back(std::move(cj));
   }
-  j["candidates"] = cands;
+  j["candidates"] = std::move(cands);
   ordered_json rt;
   rt["runs"] = b.residual_tests.runs;
   rt["expected_runs"] = rounded(b.residual_tests.expected_runs, 3);
@@ -144,10 +144,10 @@ ordered_json fit_json(const Analysis& a) {
   rt["runs_p"] = significant(b.residual_tests.runs_p, 3);
   rt["runs_tested"] = b.residual_tests.runs_tested;
   rt["durbin_watson"] = rounded(b.residual_tests.durbin_watson, 4);
-  j["residual_tests"] = rt;
+  j["residual_tests"] = std::move(rt);
   ordered_json flags = b.flags;
   for (const auto& f : r.flags) flags.push_back(f);
-  j["flags"] = flags;
+  j["flags"] = std::move(flags);
   return j;
 }
 

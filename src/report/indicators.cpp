@@ -113,8 +113,8 @@ void add_endpoint_indicators(ordered_json& ej, const Analysis& a, int endpoint_i
     for (const auto& c : e->candidates) list.push_back(change_json(c, a.indicators.curve_method));
     for (const auto& n : e->also_suitable) also.push_back(n);
   }
-  ej["indicators"] = list;
-  ej["indicators_also_suitable"] = also;
+  ej["indicators"] = std::move(list);
+  ej["indicators_also_suitable"] = std::move(also);
 }
 
 std::string endpoint_indicators_line(const Analysis& a, int endpoint_index) {
@@ -275,7 +275,7 @@ std::string to_json(const Analysis& analysis, const indicators::CrosscheckResult
   c["indicator_error_percent"] = number(r.change ? r.change->error_percent : std::nullopt, kPercentDecimals);
   c["verdict"] = r.change ? ordered_json(std::string(indicators::to_string(r.change->verdict))) : ordered_json(nullptr);
   c["notes"] = r.notes;
-  j["crosscheck"] = c;
+  j["crosscheck"] = std::move(c);
   return j.dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n";
 }
 

@@ -77,7 +77,7 @@ ordered_json result_json(const method::Result& r) {
   spec["low"] = r.spec_low ? significant(*r.spec_low, 8) : ordered_json(nullptr);
   spec["high"] = r.spec_high ? significant(*r.spec_high, 8) : ordered_json(nullptr);
   spec["verdict"] = r.verdict.empty() ? ordered_json(nullptr) : ordered_json(r.verdict);
-  j["spec"] = spec;
+  j["spec"] = std::move(spec);
   ordered_json ep;
   if (r.at_pH)
     ep["at_pH"] = number(*r.at_pH, 3);
@@ -85,7 +85,7 @@ ordered_json result_json(const method::Result& r) {
     ep["index"] = r.endpoint_index;
   ep["volume_mL"] = number(r.endpoint_volume_mL, 6);
   ep["source"] = r.volume_source;
-  j["endpoint"] = ep;
+  j["endpoint"] = std::move(ep);
   ordered_json budget = ordered_json::array();
   for (const auto& b : r.budget) {
     ordered_json bj;
@@ -96,9 +96,9 @@ ordered_json result_json(const method::Result& r) {
     bj["sensitivity"] = significant(b.sensitivity, 6);
     bj["contribution"] = significant(b.contribution, 3);
     bj["percent"] = number(b.percent, 2);
-    budget.push_back(bj);
+    budget.push_back(std::move(bj));
   }
-  j["budget"] = budget;
+  j["budget"] = std::move(budget);
   j["notes"] = r.notes;
   return j;
 }
@@ -139,7 +139,7 @@ std::string to_json(const Analysis& a) {
     if (int n = ++seen[k]; n > 1) key += " (" + std::to_string(n) + ")";
     md[key] = v;
   }
-  r["metadata"] = md;
+  r["metadata"] = std::move(md);
   ordered_json facts = ordered_json::object();
   if (run.facts.sample_volume_mL) facts["sample_volume_mL"] = number(*run.facts.sample_volume_mL, 6);
   if (run.facts.sample_mass_g) facts["sample_mass_g"] = number(*run.facts.sample_mass_g, 6);
@@ -150,7 +150,7 @@ std::string to_json(const Analysis& a) {
   // What Gran and the fit used: a method's sample volume and titrant concentration (titer applied) win.
   if (a.used_sample_volume_mL) facts["used_sample_volume_mL"] = number(*a.used_sample_volume_mL, 6);
   if (a.used_titrant_conc_mol_L) facts["used_titrant_conc_mol_L"] = significant(*a.used_titrant_conc_mol_L, 8);
-  r["facts"] = facts;
+  r["facts"] = std::move(facts);
   ordered_json dialect;
   dialect["encoding"] = run.dialect.encoding;
   dialect["line_ending"] = run.dialect.line_ending;
@@ -158,18 +158,18 @@ std::string to_json(const Analysis& a) {
   dialect["decimal"] = std::string(1, run.dialect.decimal);
   dialect["header_line"] = run.dialect.header_line;
   dialect["first_data_line"] = run.dialect.first_data_line;
-  r["dialect"] = dialect;
+  r["dialect"] = std::move(dialect);
   ordered_json cols;
   cols["volume"] = column(run.volume_column);
   cols["signal"] = column(run.signal_column);
   if (run.temperature_column) cols["temperature"] = column(*run.temperature_column);
   if (run.time_column) cols["time"] = column(*run.time_column);
-  r["columns"] = cols;
+  r["columns"] = std::move(cols);
   if (!run.volume_mL.empty()) {
     r["volume_range_mL"] = {number(run.volume_mL.front(), 6), number(run.volume_mL.back(), 6)};
   }
   r["notes"] = run.notes;
-  j["run"] = r;
+  j["run"] = std::move(r);
 
   const bool ph = c.signal == SignalKind::ph;
   const int level_decimals = ph ? 4 : 3;
@@ -183,9 +183,9 @@ std::string to_json(const Analysis& a) {
   cj["temperature_known"] = c.temperature_known;
   std::size_t spikes = 0;
   for (auto s : c.spike) spikes += s;
-  cj["spikes"] = spikes;
+  cj["spikes"] = std::move(spikes);
   cj["derivative_window_points"] = a.endpoints.derivatives.window_points;
-  j["curve"] = cj;
+  j["curve"] = std::move(cj);
 
   ordered_json eps = ordered_json::array();
   for (std::size_t i = 0; i < a.endpoints.endpoints.size(); ++i) {
@@ -206,28 +206,28 @@ std::string to_json(const Analysis& a) {
       if (a.gran[i].after) methods["gran_after"] = gran_json(*a.gran[i].after);
     }
     detail::add_endpoint_fit(methods, a, e.index);
-    ej["methods"] = methods;
+    ej["methods"] = std::move(methods);
     ej["consensus_methods"] = e.consensus_methods;
     ej["consensus_left_out"] = e.consensus_left_out;
     ej["peak_slope"] = significant(e.peak_slope, 6);
     ej["snr"] = significant(e.snr, 3);
     ej["flags"] = e.flags;
     detail::add_endpoint_indicators(ej, a, e.index);
-    eps.push_back(ej);
+    eps.push_back(std::move(ej));
   }
-  j["endpoints"] = eps;
+  j["endpoints"] = std::move(eps);
   j["fit"] = detail::fit_json(a);
   if (a.results || !a.results_error.empty()) {
     ordered_json mj;
     mj["name"] = a.results ? a.results->method_name : std::string();
     mj["file"] = a.results ? a.results->method_path : std::string();
-    j["method"] = mj;
+    j["method"] = std::move(mj);
     ordered_json rs = ordered_json::array();
     if (a.results) {
       for (const auto& r : a.results->results) rs.push_back(result_json(r));
     }
     j["result"] = rs.empty() ? ordered_json(nullptr) : rs.front();
-    j["results"] = rs;
+    j["results"] = std::move(rs);
     if (!a.results_error.empty()) j["result_error"] = a.results_error;
     if (a.results) {
       j["acceptance_failures"] = a.results->acceptance_failures;
@@ -239,13 +239,13 @@ std::string to_json(const Analysis& a) {
         tj["concentration_mol_L"] = significant(t.concentration_mol_L, 6);
         tj["uncertainty_mol_L"] = significant(t.uncertainty_mol_L, 3);
         if (t.nominal_mol_L > 0) tj["titer"] = number(t.concentration_mol_L / t.nominal_mol_L, 5);
-        j["titer"] = tj;
+        j["titer"] = std::move(tj);
       }
     }
   }
   ordered_json ws = ordered_json::array();
   for (const auto& w : a.warnings) ws.push_back(location(w));
-  j["warnings"] = ws;
+  j["warnings"] = std::move(ws);
   return j.dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n";
 }
 
