@@ -2,16 +2,16 @@
 // The ingest stage: sniff the dialect, find the table, read the readings, or say exactly what is wrong.
 #include "veq/ingest/reader.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <array>
 #include <cerrno>
-#include <cstring>
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 #include <map>
 #include <numeric>
-
-#include <fmt/format.h>
 
 #include "ingest/columns.hpp"
 #include "ingest/decode.hpp"
@@ -85,7 +85,15 @@ Sniffed sniff(const std::vector<std::string>& lines) {
     std::map<std::size_t, std::size_t> counts;
     for (const auto& l : lines) {
       if (detail::is_blank(l)) continue;
-      Shape s = shape_of(l, c, scratch);
+      // A line without the separator is one field, never a numeric row: not split or parsed (the same shape).
+      const bool has_sep = c.sep == detail::kWhitespace ? l.find_first_of(" \t") != std::string::npos
+                                                        : l.find(c.sep) != std::string::npos;
+      Shape s;
+      if (has_sep) {
+        s = shape_of(l, c, scratch);
+      } else {
+        s.fields = 1;
+      }
       if (s.numeric_row) {
         ++counts[s.fields];
         evidence = evidence || s.comma_decimal;
@@ -133,8 +141,10 @@ std::vector<std::string> split_header(std::string_view line, char sep, std::size
   // Or single spaces with units in brackets: "Volume (mL) pH" -> "Volume (mL)", "pH".
   std::vector<std::string> merged;
   for (const auto& n : names) {
-    if (!merged.empty() && (n.front() == '(' || n.front() == '[')) merged.back() += " " + n;
-    else merged.push_back(n);
+    if (!merged.empty() && (n.front() == '(' || n.front() == '['))
+      merged.back() += " " + n;
+    else
+      merged.push_back(n);
   }
   return merged;
 }
@@ -162,7 +172,9 @@ class Reader {
   Run read(std::unique_ptr<detail::RawSource> raw);
 
  private:
-  [[noreturn]] void fail(std::size_t line, std::size_t column, const std::string& message,
+  [[noreturn]] void fail(std::size_t line,
+                         std::size_t column,
+                         const std::string& message,
                          const std::string& hint = {}) const {
     throw InputError({m_source, line, column}, message, hint);
   }
@@ -171,9 +183,11 @@ class Reader {
   }
   void check_line_length(std::string_view line, std::size_t line_no) const {
     if (line.size() > m_opt.max_line_bytes) {
-      fail(line_no, 0,
+      fail(line_no,
+           0,
            fmt::format("line is {} bytes long; a titration log line is expected to be under {} bytes",
-                       line.size(), m_opt.max_line_bytes),
+                       line.size(),
+                       m_opt.max_line_bytes),
            "this does not look like a pH/mV-versus-volume export");
     }
   }
@@ -219,13 +233,16 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
   };
   auto check_index = [&](std::size_t one_based, const char* what) {
     if (one_based == 0 || one_based > m_table_columns) {
-      fail(0, 0, fmt::format("--columns {}={} but the table has {} columns", what, one_based, m_table_columns),
+      fail(0,
+           0,
+           fmt::format("--columns {}={} but the table has {} columns", what, one_based, m_table_columns),
            "columns are numbered from 1, as a spreadsheet shows them");
     }
     return one_based - 1;
   };
 
-  std::optional<std::size_t> vol = ov.volume ? std::optional(check_index(*ov.volume, "volume")) : find_first(Quantity::volume);
+  std::optional<std::size_t> vol =
+      ov.volume ? std::optional(check_index(*ov.volume, "volume")) : find_first(Quantity::volume);
   std::optional<std::size_t> sig;
   SignalKind kind = SignalKind::ph;
   if (ov.signal) {
@@ -234,8 +251,10 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
   } else if (auto ph = find_first(Quantity::ph)) {
     sig = ph;
     if (auto mv = find_first(Quantity::potential)) {
-      warn("two_signals", fmt::format("both a pH column ('{}') and a potential column ('{}'); using pH",
-                                      detail::excerpt(header[*ph]), detail::excerpt(header[*mv])),
+      warn("two_signals",
+           fmt::format("both a pH column ('{}') and a potential column ('{}'); using pH",
+                       detail::excerpt(header[*ph]),
+                       detail::excerpt(header[*mv])),
            header_line);
     }
   } else if (auto mv = find_first(Quantity::potential)) {
@@ -249,12 +268,13 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
     if (!have_header && m_table_columns == 2) {
       vol = vol.value_or(0);
       sig = sig.value_or(1);
-      warn("no_header",
-           std::string("no header row: reading column 1 as volume (mL) and column 2 as ") +
-               std::string(to_string(kind)),
-           m_run.dialect.first_data_line);
+      warn(
+          "no_header",
+          std::string("no header row: reading column 1 as volume (mL) and column 2 as ") + std::string(to_string(kind)),
+          m_run.dialect.first_data_line);
     } else if (!have_header) {
-      fail(m_run.dialect.first_data_line, 0,
+      fail(m_run.dialect.first_data_line,
+           0,
            fmt::format("the table has {} columns and no header row; cannot tell which column is the volume "
                        "and which the signal",
                        m_table_columns),
@@ -262,12 +282,16 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
     } else if (!vol) {
       std::string names;
       for (const auto& h : header) names += (names.empty() ? "'" : ", '") + detail::excerpt(h) + "'";
-      fail(header_line, 0, "no volume column in the header (found " + names + ")",
+      fail(header_line,
+           0,
+           "no volume column in the header (found " + names + ")",
            "name it e.g. 'Volume (mL)', or pass --columns volume=N,signal=M");
     } else {
       std::string names;
       for (const auto& h : header) names += (names.empty() ? "'" : ", '") + detail::excerpt(h) + "'";
-      fail(header_line, 0, "no pH or potential (mV) column in the header (found " + names + ")",
+      fail(header_line,
+           0,
+           "no pH or potential (mV) column in the header (found " + names + ")",
            "name it e.g. 'pH' or 'E (mV)', or pass --columns volume=N,signal=M");
     }
   }
@@ -283,8 +307,10 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
   if (m_vol < info.size()) {
     const HeaderInfo& h = info[m_vol];
     if (h.unit_unknown || (h.unit && h.unit->quantity != Quantity::volume && !ov.volume)) {
-      fail(header_line, column_of(m_vol),
-           fmt::format("unknown volume unit '{}' in column '{}'; expected mL, uL or L", detail::excerpt(h.unit_text),
+      fail(header_line,
+           column_of(m_vol),
+           fmt::format("unknown volume unit '{}' in column '{}'; expected mL, uL or L",
+                       detail::excerpt(h.unit_text),
                        detail::excerpt(header[m_vol])),
            "or pass --volume-unit mL|uL|L");
     }
@@ -294,13 +320,15 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
     } else if (!m_opt.volume_unit && have_header) {
       warn("volume_unit_assumed",
            fmt::format("volume column '{}' states no unit; assuming mL", detail::excerpt(header[m_vol])),
-           header_line, column_of(m_vol));
+           header_line,
+           column_of(m_vol));
     }
   }
   if (m_opt.volume_unit) {
     auto u = detail::find_unit(*m_opt.volume_unit);
     if (!u || u->quantity != Quantity::volume) {
-      throw InputError({"--volume-unit", 0, 0}, "unknown volume unit '" + detail::excerpt(*m_opt.volume_unit) + "'",
+      throw InputError({"--volume-unit", 0, 0},
+                       "unknown volume unit '" + detail::excerpt(*m_opt.volume_unit) + "'",
                        "expected mL, uL or L");
     }
     m_vol_factor = u->factor;
@@ -309,8 +337,10 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
   if (m_sig < info.size()) {
     const HeaderInfo& h = info[m_sig];
     if (h.unit_unknown) {
-      fail(header_line, column_of(m_sig),
-           fmt::format("unknown unit '{}' in signal column '{}'; expected pH, mV or V", detail::excerpt(h.unit_text),
+      fail(header_line,
+           column_of(m_sig),
+           fmt::format("unknown unit '{}' in signal column '{}'; expected pH, mV or V",
+                       detail::excerpt(h.unit_text),
                        detail::excerpt(header[m_sig])),
            "write the unit as pH, mV or V, or pass --signal pH|mV");
     }
@@ -320,15 +350,18 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
     }
   }
   // Optional columns: temperature and time.
-  auto optional_column = [&](Quantity q, std::optional<std::size_t> forced, const char* what)
-      -> std::optional<std::size_t> {
+  auto optional_column =
+      [&](Quantity q, std::optional<std::size_t> forced, const char* what) -> std::optional<std::size_t> {
     std::optional<std::size_t> idx = forced ? std::optional(check_index(*forced, what)) : find_first(q);
     if (!idx || *idx == m_vol || *idx == m_sig) return std::nullopt;
     if (*idx < info.size() && info[*idx].unit_unknown) {
       warn("column_unit_unknown",
-           fmt::format("{} column '{}' has unit '{}', which is not understood; column ignored", what,
-                       detail::excerpt(header[*idx]), detail::excerpt(info[*idx].unit_text)),
-           header_line, column_of(*idx));
+           fmt::format("{} column '{}' has unit '{}', which is not understood; column ignored",
+                       what,
+                       detail::excerpt(header[*idx]),
+                       detail::excerpt(info[*idx].unit_text)),
+           header_line,
+           column_of(*idx));
       return std::nullopt;
     }
     return idx;
@@ -365,7 +398,8 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
     bool same = true;
     for (std::size_t i = 0; i < m_fields.size() && same; ++i) same = detail::trim(m_header[i]) == m_fields[i].text;
     if (same) {
-      if (++m_repeated_headers == 1) warn("repeated_header", "the header is repeated inside the table; skipped", line_no);
+      if (++m_repeated_headers == 1)
+        warn("repeated_header", "the header is repeated inside the table; skipped", line_no);
       return;
     }
   }
@@ -378,7 +412,9 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
     bool any_text = false;
     for (const auto& f : m_fields) any_text = any_text || !f.text.empty();
     if (!any_text) return;
-    m_pending.push_back({line_no, m_fields.front().column, detail::excerpt(line, 60),
+    m_pending.push_back({line_no,
+                         m_fields.front().column,
+                         detail::excerpt(line, 60),
                          fmt::format("row has {} fields; the table has {}", m_fields.size(), m_table_columns)});
     return;
   }
@@ -389,18 +425,22 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
   const NumberStatus vs = detail::parse_number(fv.text, m_cand.dec, v);
   const NumberStatus ss = detail::parse_number(fs.text, m_cand.dec, s, &decimals);
   if (vs == NumberStatus::not_finite) {
-    fail(line_no, fv.column, fmt::format("'{}' in column '{}' is not a finite number", detail::excerpt(fv.text), col_name(m_vol)),
+    fail(line_no,
+         fv.column,
+         fmt::format("'{}' in column '{}' is not a finite number", detail::excerpt(fv.text), col_name(m_vol)),
          "a reading must be a finite number; remove or fix the row");
   }
   if (ss == NumberStatus::not_finite) {
-    fail(line_no, fs.column, fmt::format("'{}' in column '{}' is not a finite number", detail::excerpt(fs.text), col_name(m_sig)),
+    fail(line_no,
+         fs.column,
+         fmt::format("'{}' in column '{}' is not a finite number", detail::excerpt(fs.text), col_name(m_sig)),
          "a reading must be a finite number; remove or fix the row");
   }
   if (vs == NumberStatus::not_a_number || ss == NumberStatus::not_a_number) {
     const bool bad_v = vs == NumberStatus::not_a_number;
     const Field& f = bad_v ? fv : fs;
-    m_pending.push_back({line_no, f.column, std::string(detail::excerpt(f.text)),
-                         "column '" + col_name(bad_v ? m_vol : m_sig) + "'"});
+    m_pending.push_back(
+        {line_no, f.column, std::string(detail::excerpt(f.text)), "column '" + col_name(bad_v ? m_vol : m_sig) + "'"});
     return;
   }
   if (vs == NumberStatus::empty || ss == NumberStatus::empty) {
@@ -408,63 +448,77 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
     ++m_empty_cells;
     if (m_empty_cells <= 5) {
       warn("empty_cell",
-           fmt::format("empty {} cell; reading skipped", vs == NumberStatus::empty ? "volume" : std::string(to_string(m_run.signal))),
-           line_no, vs == NumberStatus::empty ? fv.column : fs.column);
+           fmt::format("empty {} cell; reading skipped",
+                       vs == NumberStatus::empty ? "volume" : std::string(to_string(m_run.signal))),
+           line_no,
+           vs == NumberStatus::empty ? fv.column : fs.column);
     }
     return;
   }
   if (!m_pending.empty()) {
     const Pending& p = m_pending.front();
     if (p.what.rfind("row has", 0) == 0) {
-      fail(p.line, p.column, fmt::format("'{}' inside the table: {}", p.text, p.what),
+      fail(p.line,
+           p.column,
+           fmt::format("'{}' inside the table: {}", p.text, p.what),
            "every row of the table must hold a reading; remove the line or start it with '#'");
     }
-    fail(p.line, p.column, fmt::format("'{}' in {} is not a number; expected a number inside the table", p.text, p.what),
+    fail(p.line,
+         p.column,
+         fmt::format("'{}' in {} is not a number; expected a number inside the table", p.text, p.what),
          "every row of the table must hold a reading; remove the line or start it with '#'");
   }
   v *= m_vol_factor;
   s *= m_sig_factor;
   if (v < 0) {
-    fail(line_no, fv.column, fmt::format("negative volume {} mL; expected a volume of 0 or more", fv.text),
+    fail(line_no,
+         fv.column,
+         fmt::format("negative volume {} mL; expected a volume of 0 or more", fv.text),
          "volumes are the titrant added since the start of the run");
   }
   if (!m_opt.sort_by_volume && !m_run.volume_mL.empty() && v < m_run.volume_mL.back()) {
-    fail(line_no, fv.column,
+    fail(line_no,
+         fv.column,
          fmt::format("volume goes backwards: {:g} mL after {:g} mL on line {}; expected volumes that never decrease",
-                     v, m_run.volume_mL.back(), m_run.line.back()),
+                     v,
+                     m_run.volume_mL.back(),
+                     m_run.line.back()),
          "a titrator never un-doses; if the rows are merely out of order, pass --sort");
   }
   if (m_run.signal == SignalKind::ph && (s < m_opt.min_pH || s > m_opt.max_pH)) {
-    fail(line_no, fs.column, fmt::format("pH {} is outside {:g} to {:g}", fs.text, m_opt.min_pH, m_opt.max_pH),
+    fail(line_no,
+         fs.column,
+         fmt::format("pH {} is outside {:g} to {:g}", fs.text, m_opt.min_pH, m_opt.max_pH),
          "if this column is a potential, pass --signal mV (or name the column 'E (mV)')");
   }
   if (m_run.signal == SignalKind::mv && std::fabs(s) > m_opt.max_abs_mV) {
-    fail(line_no, fs.column, fmt::format("potential {} mV is outside ±{:g} mV", fs.text, m_opt.max_abs_mV),
+    fail(line_no,
+         fs.column,
+         fmt::format("potential {} mV is outside ±{:g} mV", fs.text, m_opt.max_abs_mV),
          "check the column's unit (mV or V)");
   }
-  if (decimals == -1) m_max_decimals = -1;
-  else if (m_max_decimals != -1) m_max_decimals = std::max(m_max_decimals, decimals);
+  if (decimals == -1)
+    m_max_decimals = -1;
+  else if (m_max_decimals != -1)
+    m_max_decimals = std::max(m_max_decimals, decimals);
   m_run.volume_mL.push_back(v);
   m_run.signal_values.push_back(s);
   m_run.line.push_back(static_cast<std::uint32_t>(line_no));
   if (m_temp) {
     double t = std::nan("");
-    if (*m_temp < m_fields.size() &&
-        detail::parse_number(m_fields[*m_temp].text, m_cand.dec, t) == NumberStatus::ok) {
+    if (*m_temp < m_fields.size() && detail::parse_number(m_fields[*m_temp].text, m_cand.dec, t) == NumberStatus::ok) {
       t = t * m_temp_factor + m_temp_offset;
       if (t < -5 || t > 100) t = std::nan("");
     }
     if (std::isnan(t) && !m_temp_bad_warned) {
       m_temp_bad_warned = true;
-      warn("temperature_cell", "temperature cell missing or not a plausible °C value; previous value used",
-           line_no);
+      warn("temperature_cell", "temperature cell missing or not a plausible °C value; previous value used", line_no);
     }
     m_run.temperature_C.push_back(t);
   }
   if (m_time) {
     double t = std::nan("");
-    if (*m_time < m_fields.size() &&
-        detail::parse_number(m_fields[*m_time].text, m_cand.dec, t) == NumberStatus::ok) {
+    if (*m_time < m_fields.size() && detail::parse_number(m_fields[*m_time].text, m_cand.dec, t) == NumberStatus::ok) {
       t *= m_time_factor;
     }
     m_run.time_s.push_back(t);
@@ -481,8 +535,10 @@ void fill_gaps(std::vector<double>& v) {
   }
   double last = *first;
   for (double& x : v) {
-    if (std::isnan(x)) x = last;
-    else last = x;
+    if (std::isnan(x))
+      x = last;
+    else
+      last = x;
   }
 }
 
@@ -497,14 +553,17 @@ void Reader::finish() {
     warn("empty_cell", fmt::format("{} readings skipped in all for empty cells", m_empty_cells));
   }
   if (m_run.volume_mL.empty()) {
-    fail(m_run.dialect.first_data_line, 0, "no readings: the table has no row with both a volume and a signal",
+    fail(m_run.dialect.first_data_line,
+         0,
+         "no readings: the table has no row with both a volume and a signal",
          "expected rows like '12.50;7.02' (volume and pH)");
   }
   if (m_opt.sort_by_volume) {
     std::vector<std::size_t> order(m_run.volume_mL.size());
     std::iota(order.begin(), order.end(), 0);
-    std::stable_sort(order.begin(), order.end(),
-                     [&](std::size_t a, std::size_t b) { return m_run.volume_mL[a] < m_run.volume_mL[b]; });
+    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
+      return m_run.volume_mL[a] < m_run.volume_mL[b];
+    });
     if (!std::is_sorted(m_run.volume_mL.begin(), m_run.volume_mL.end())) {
       auto permute = [&](auto& vec) {
         if (vec.empty()) return;
@@ -521,9 +580,11 @@ void Reader::finish() {
   }
   const auto [mn, mx] = std::minmax_element(m_run.volume_mL.begin(), m_run.volume_mL.end());
   if (*mn == *mx) {
-    fail(m_run.dialect.first_data_line, m_fields.empty() ? 0 : 1,
+    fail(m_run.dialect.first_data_line,
+         m_fields.empty() ? 0 : 1,
          fmt::format("all {} readings have the same volume ({:g} mL); expected a titration over a range of volumes",
-                     m_run.volume_mL.size(), *mn),
+                     m_run.volume_mL.size(),
+                     *mn),
          "check that the volume column is the titrant volume (or pass --columns volume=N,signal=M)");
   }
   fill_gaps(m_run.temperature_C);
@@ -551,7 +612,8 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   std::size_t text_pos = 0, text_line = 0;
   if (whole) {
     char buf[1 << 16];
-    while (const int n = decoder->read(buf, static_cast<int>(sizeof buf))) text.append(buf, static_cast<std::size_t>(n));
+    while (const int n = decoder->read(buf, static_cast<int>(sizeof buf)))
+      text.append(buf, static_cast<std::size_t>(n));
   } else {
     try {
       lines = std::make_unique<::io::LineReader>(m_source, std::make_unique<Forward>(decoder));
@@ -561,12 +623,16 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   }
   auto over_limit = [&] {
     if (decoder->over_limit()) {
-      fail(0, 0, fmt::format("file is larger than the {} MiB limit", m_opt.max_file_bytes >> 20),
+      fail(0,
+           0,
+           fmt::format("file is larger than the {} MiB limit", m_opt.max_file_bytes >> 20),
            "pass --max-size to raise the limit if the file really is a titration log");
     }
   };
   if (decoder->looks_binary()) {
-    fail(1, 0, "this is a binary file, not a text export (NUL or control bytes found)",
+    fail(1,
+         0,
+         "this is a binary file, not a text export (NUL or control bytes found)",
          "export the run as CSV or text from the instrument");
   }
   over_limit();
@@ -612,10 +678,18 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   over_limit();
   m_run.dialect.line_ending = decoder->line_endings();
   switch (decoder->encoding()) {
-    case detail::Encoding::utf8: m_run.dialect.encoding = decoder->latin1_seen() ? "latin-1" : "utf-8"; break;
-    case detail::Encoding::utf8_bom: m_run.dialect.encoding = "utf-8-bom"; break;
-    case detail::Encoding::utf16le: m_run.dialect.encoding = "utf-16le"; break;
-    case detail::Encoding::utf16be: m_run.dialect.encoding = "utf-16be"; break;
+    case detail::Encoding::utf8:
+      m_run.dialect.encoding = decoder->latin1_seen() ? "latin-1" : "utf-8";
+      break;
+    case detail::Encoding::utf8_bom:
+      m_run.dialect.encoding = "utf-8-bom";
+      break;
+    case detail::Encoding::utf16le:
+      m_run.dialect.encoding = "utf-16le";
+      break;
+    case detail::Encoding::utf16be:
+      m_run.dialect.encoding = "utf-16be";
+      break;
   }
   if (std::all_of(sample.begin(), sample.end(), [](const std::string& s) { return detail::is_blank(s); })) {
     fail(sample.empty() ? 0 : 1, 0, "the file is empty", "expected a pH- or mV-versus-volume table");
@@ -630,7 +704,9 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
       Shape s = shape_of(sample[i], {detail::kWhitespace, '.'}, scratch);
       Shape s2 = shape_of(sample[i], {detail::kWhitespace, ','}, scratch);
       if ((s.fields == 1 && s.numeric == 1) || (s2.fields == 1 && s2.numeric == 1)) {
-        fail(i + 1, 1, "the table has a single column of numbers; expected two: volume and pH (or mV)",
+        fail(i + 1,
+             1,
+             "the table has a single column of numbers; expected two: volume and pH (or mV)",
              "export both the volume and the signal columns");
       }
     }
@@ -652,15 +728,19 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
         for (std::size_t k : {*vol, *sig}) {
           double v = 0;
           if (k < scratch.size() && detail::parse_number(scratch[k].text, c.dec, v) != NumberStatus::ok) {
-            fail(j + 1, scratch[k].column,
+            fail(j + 1,
+                 scratch[k].column,
                  fmt::format("'{}' in column '{}' is not a number; expected a number under the header on line {}",
-                             detail::excerpt(scratch[k].text), detail::excerpt(cells[k]), i + 1),
+                             detail::excerpt(scratch[k].text),
+                             detail::excerpt(cells[k]),
+                             i + 1),
                  "cells must hold plain numbers (no units or text); units belong in the header");
           }
         }
       }
     }
-    fail(eof ? 1 : 0, 0,
+    fail(eof ? 1 : 0,
+         0,
          eof ? "no table of numbers found; expected rows like '12.50;7.02' (volume and pH)"
              : fmt::format("no table of numbers found in the first {} lines", sample.size()),
          "export the run as text with one reading per row");
@@ -761,8 +841,10 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
   if (m_size_hint > 0 && start < sample.size()) {
     std::size_t table_bytes = 0, table_lines = 0;
     for (std::size_t i = start; i < sample.size(); ++i) table_bytes += sample[i].size() + 1, ++table_lines;
-    const double per_line = static_cast<double>(table_bytes) / static_cast<double>(std::max<std::size_t>(table_lines, 1));
-    const auto estimate = static_cast<std::size_t>(static_cast<double>(m_size_hint) / std::max(per_line, 4.0) * 1.02) + 16;
+    const double per_line =
+        static_cast<double>(table_bytes) / static_cast<double>(std::max<std::size_t>(table_lines, 1));
+    const auto estimate =
+        static_cast<std::size_t>(static_cast<double>(m_size_hint) / std::max(per_line, 4.0) * 1.02) + 16;
     const std::size_t rows = std::min<std::size_t>(estimate, m_opt.max_file_bytes / 4 + 16);
     m_run.volume_mL.reserve(rows);
     m_run.signal_values.reserve(rows);
@@ -801,7 +883,8 @@ std::vector<std::string> IngestOptions::validate() const {
   std::vector<std::string> problems;
   if (max_file_bytes == 0) problems.push_back("max_file_bytes = 0: must be positive");
   if (max_line_bytes < 64) problems.push_back(fmt::format("max_line_bytes = {}: must be at least 64", max_line_bytes));
-  if (!(min_pH < max_pH)) problems.push_back(fmt::format("min_pH = {:g}, max_pH = {:g}: min must be below max", min_pH, max_pH));
+  if (!(min_pH < max_pH))
+    problems.push_back(fmt::format("min_pH = {:g}, max_pH = {:g}: min must be below max", min_pH, max_pH));
   if (!(max_abs_mV > 0)) problems.push_back(fmt::format("max_abs_mV = {:g}: must be positive", max_abs_mV));
   if (columns.volume && columns.signal && *columns.volume == *columns.signal) {
     problems.push_back("columns: volume and signal must be different columns");
@@ -823,7 +906,8 @@ Run read_run(const std::filesystem::path& path, const IngestOptions& options) {
     const auto size = std::filesystem::file_size(path, ec);
     if (!ec && size > options.max_file_bytes) {
       throw InputError({name, 0, 0},
-                       fmt::format("file is {:.1f} MiB; the limit is {} MiB", static_cast<double>(size) / 1048576.0,
+                       fmt::format("file is {:.1f} MiB; the limit is {} MiB",
+                                   static_cast<double>(size) / 1048576.0,
                                    options.max_file_bytes >> 20),
                        "pass --max-size to raise the limit if the file really is a titration log");
     }
@@ -841,7 +925,8 @@ Run read_run(const std::filesystem::path& path, const IngestOptions& options) {
 Run parse_run(std::string_view bytes, const std::string& source_name, const IngestOptions& options) {
   if (bytes.size() > options.max_file_bytes) {
     throw InputError({source_name, 0, 0},
-                     fmt::format("file is {:.1f} MiB; the limit is {} MiB", static_cast<double>(bytes.size()) / 1048576.0,
+                     fmt::format("file is {:.1f} MiB; the limit is {} MiB",
+                                 static_cast<double>(bytes.size()) / 1048576.0,
                                  options.max_file_bytes >> 20));
   }
   Reader reader(source_name, options, bytes.size());
@@ -867,7 +952,8 @@ Expected<Run> try_parse_run(std::string_view bytes, const std::string& source_na
 ColumnOverrides parse_column_overrides(std::string_view spec) {
   ColumnOverrides out;
   auto bad = [&](const std::string& why) {
-    throw InputError({"--columns", 0, 0}, "'" + detail::excerpt(spec) + "': " + why,
+    throw InputError({"--columns", 0, 0},
+                     "'" + detail::excerpt(spec) + "': " + why,
                      "expected e.g. --columns volume=2,signal=4 (1-based; also temperature=N, time=N)");
   };
   std::string_view rest = spec;
@@ -880,15 +966,21 @@ ColumnOverrides parse_column_overrides(std::string_view spec) {
     if (eq == std::string_view::npos) bad("missing '='");
     const std::string key = detail::normalize_label(detail::trim(item.substr(0, eq)));
     double v = 0.0;
-    if (detail::parse_number(item.substr(eq + 1), '.', v) != NumberStatus::ok || v < 1 || v != std::floor(v) || v > 10000) {
+    if (detail::parse_number(item.substr(eq + 1), '.', v) != NumberStatus::ok || v < 1 || v != std::floor(v) ||
+        v > 10000) {
       bad("column numbers are whole numbers from 1");
     }
     const auto n = static_cast<std::size_t>(v);
-    if (key == "volume" || key == "v") out.volume = n;
-    else if (key == "signal" || key == "ph" || key == "mv" || key == "e") out.signal = n;
-    else if (key == "temperature" || key == "temp" || key == "t") out.temperature = n;
-    else if (key == "time") out.time = n;
-    else bad("unknown column name '" + key + "'");
+    if (key == "volume" || key == "v")
+      out.volume = n;
+    else if (key == "signal" || key == "ph" || key == "mv" || key == "e")
+      out.signal = n;
+    else if (key == "temperature" || key == "temp" || key == "t")
+      out.temperature = n;
+    else if (key == "time")
+      out.time = n;
+    else
+      bad("unknown column name '" + key + "'");
   }
   if (!out.volume && !out.signal && !out.temperature && !out.time) bad("no column given");
   return out;
