@@ -145,22 +145,11 @@ class FastBalance {
     b.I_L = -ln10 * oh;
     for (std::size_t k = 0; k < m_count; ++k) {
       const Item& it = m_items[k];
-      std::array<double, chem::kMaxSteps + 1> a{};
-      a[0] = 1.0;
-      double S = 1.0;
-      // q^(z0 - j) for j = 1: start there and divide by q for each further step.
-      double qp = it.z0 - 1 >= 0 ? ipow(q, it.z0 - 1) : ipow(inv_q, 1 - it.z0);
-      for (int j = 1; j <= it.steps; ++j) {
-        a[j] = a[j - 1] * it.K[j - 1] * qp * u;
-        S += a[j];
-        qp *= inv_q;
-      }
+      const std::array<double, chem::kMaxSteps + 1> a = fractions(it, q, inv_q, u);
       const double z0 = static_cast<double>(it.z0);
       double mj = 0.0, ms = 0.0, mq2 = 0.0;
-      const double inv_S = 1.0 / S;
       for (int j = 0; j <= it.steps; ++j) {
         const double jj = static_cast<double>(j);
-        a[j] *= inv_S;
         mj += jj * a[j];
         ms += (2.0 * jj * z0 - jj * (jj + 1.0)) * a[j];
         mq2 += (z0 - jj) * (z0 - jj) * a[j];
@@ -230,21 +219,11 @@ class FastBalance {
     double I = 0.5 * (h + oh) + d * m_fixed_ionic_sample + e * m_fixed_ionic_titrant;
     for (std::size_t n = 0; n < m_count; ++n) {
       const Item& it = m_items[n];
-      std::array<double, chem::kMaxSteps + 1> a{};
-      a[0] = 1.0;
-      double S = 1.0;
-      double qp = it.z0 - 1 >= 0 ? ipow(q, it.z0 - 1) : ipow(inv_q, 1 - it.z0);
-      for (int j = 1; j <= it.steps; ++j) {
-        a[j] = a[j - 1] * it.K[j - 1] * qp * u;
-        S += a[j];
-        qp *= inv_q;
-      }
+      const std::array<double, chem::kMaxSteps + 1> a = fractions(it, q, inv_q, u);
       const double z0 = static_cast<double>(it.z0);
-      const double inv_S = 1.0 / S;
       double mj = 0.0, mq2 = 0.0;
       for (int j = 0; j <= it.steps; ++j) {
         const double jj = static_cast<double>(j);
-        a[j] *= inv_S;
         mj += jj * a[j];
         mq2 += (z0 - jj) * (z0 - jj) * a[j];
       }
@@ -330,6 +309,23 @@ class FastBalance {
     double conc = 0.0;
     std::array<double, chem::kMaxSteps> K{};
   };
+
+  // The item's form fractions a_0..a_steps (normalised) at u = 1/[H+], with the conditional constants
+  // K'_j = K_j q^(z0 - j): q^(z0 - 1) for the first step, divided by q for each further one.
+  static std::array<double, chem::kMaxSteps + 1> fractions(const Item& it, double q, double inv_q, double u) {
+    std::array<double, chem::kMaxSteps + 1> a{};
+    a[0] = 1.0;
+    double S = 1.0;
+    double qp = it.z0 - 1 >= 0 ? ipow(q, it.z0 - 1) : ipow(inv_q, 1 - it.z0);
+    for (int j = 1; j <= it.steps; ++j) {
+      a[j] = a[j - 1] * it.K[j - 1] * qp * u;
+      S += a[j];
+      qp *= inv_q;
+    }
+    const double inv_S = 1.0 / S;
+    for (int j = 0; j <= it.steps; ++j) a[j] *= inv_S;
+    return a;
+  }
 
   static double ipow(double q, int n) {
     double r = 1.0;
