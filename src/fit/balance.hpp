@@ -129,13 +129,7 @@ class FastBalance {
   // The same with the sample's dilution factor d = V0 / (V0 + V) given (Newton keeps V and so d).
   [[nodiscard]] BalancePoint eval_diluted(double d, double x, double L) const {
     constexpr double ln10 = 2.302585092994045684;
-    const double e = 1.0 - d;
-    const double h = std::exp(ln10 * x);
-    // q = gamma1^2 = 10^(2L); conditional constants K'_j = K_j q^(z0 - j), Kw' = Kw / q.
-    const double q = m_activity ? std::exp(2.0 * ln10 * L) : 1.0;
-    const double inv_q = 1.0 / q;
-    const double u = 1.0 / h;
-    const double oh = m_Kw * inv_q * u;
+    const auto [e, h, q, inv_q, u, oh] = water(d, x, L);
     BalancePoint b;
     b.F = h - oh + d * m_fixed_charge_sample + e * m_fixed_charge_titrant;
     b.F_x = ln10 * (h + oh);
@@ -202,14 +196,8 @@ class FastBalance {
   // every form m >= j, so d(mean of any f(m))/d ln K_j = sum over m >= j of f(m) a_m - (mean f) sum over
   // m >= j of a_m (the fractions normalised). Returns their number; I_out is I at the point.
   std::size_t constant_slopes(double volume_mL, double x, double L, double* dF, double* dI, double& I_out) const {
-    constexpr double ln10 = 2.302585092994045684;
     const double d = m_V0 / (m_V0 + volume_mL);
-    const double e = 1.0 - d;
-    const double h = std::exp(ln10 * x);
-    const double q = m_activity ? std::exp(2.0 * ln10 * L) : 1.0;
-    const double inv_q = 1.0 / q;
-    const double u = 1.0 / h;
-    const double oh = m_Kw * inv_q * u;
+    const auto [e, h, q, inv_q, u, oh] = water(d, x, L);
     std::size_t k = 0;
     dF[k] = d, dI[k++] = 0.0;
     dF[k] = 0.0, dI[k++] = d;
@@ -309,6 +297,20 @@ class FastBalance {
     double conc = 0.0;
     std::array<double, chem::kMaxSteps> K{};
   };
+
+  // The terms every point needs: e = 1 - d, h = [H+] = 10^x, q = gamma1^2 = 10^(2L) (conditional
+  // constants K'_j = K_j q^(z0 - j), Kw' = Kw / q), 1/q, u = 1/h and [OH-] = Kw' / h.
+  struct Water {
+    double e, h, q, inv_q, u, oh;
+  };
+  [[nodiscard]] Water water(double d, double x, double L) const {
+    constexpr double ln10 = 2.302585092994045684;
+    const double h = std::exp(ln10 * x);
+    const double q = m_activity ? std::exp(2.0 * ln10 * L) : 1.0;
+    const double inv_q = 1.0 / q;
+    const double u = 1.0 / h;
+    return {1.0 - d, h, q, inv_q, u, m_Kw * inv_q * u};
+  }
 
   // The item's form fractions a_0..a_steps (normalised) at u = 1/[H+], with the conditional constants
   // K'_j = K_j q^(z0 - j): q^(z0 - 1) for the first step, divided by q for each further one.
