@@ -1,10 +1,10 @@
 // SPDX-License-Identifier: MIT
-// Ceres settings, solve and covariance for the fitter.
+// Ceres settings and solve for the fitter, and the parameter covariance from the Jacobian.
 #include "fit/solver.hpp"
 
-#include <ceres/covariance.h>
 #include <glog/logging.h>
 
+#include <Eigen/SVD>
 #include <mutex>
 #include <utility>
 #include <vector>
@@ -12,8 +12,8 @@
 namespace veq::fit::detail {
 namespace {
 
-// Ceres reports through glog (a rank-deficient covariance, for example, as an ERROR on stderr). The fitter
-// reports the same in its own flags, so glog is silenced below FATAL once, before the first solve.
+// Ceres reports through glog (as ERRORs on stderr). The fitter reports what matters in its own flags, so
+// glog is silenced below FATAL once, before the first solve.
 void quiet_glog() {
   static std::once_flag once;
   std::call_once(once, [] { FLAGS_minloglevel = google::GLOG_FATAL; });
@@ -65,22 +65,24 @@ SolveReport solve(ceres::Problem& problem, const FitOptions& options, ceres::Ite
   return r;
 }
 
-std::optional<Eigen::MatrixXd> unscaled_covariance(ceres::Problem& problem, double* block, int k) {
-  quiet_glog();
+std::optional<Eigen::MatrixXd> unscaled_covariance(const Eigen::MatrixXd& jacobian) {
+  const Eigen::Index k = jacobian.cols();
+  if (k < 1 || jacobian.rows() < k || !jacobian.allFinite()) return std::nullopt;
   try {
-    ceres::Covariance::Options o;
-    o.algorithm_type = ceres::DENSE_SVD;
-    o.min_reciprocal_condition_number = 1e-14;
-    o.null_space_rank = 0;
-    o.num_threads = 1;
-    o.apply_loss_function = false;
-    ceres::Covariance covariance(o);
-    std::vector<std::pair<const double*, const double*>> blocks = {{block, block}};
-    if (!covariance.Compute(blocks, &problem)) return std::nullopt;
-    Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> c(k, k);
-    if (!covariance.GetCovarianceBlock(block, block, c.data())) return std::nullopt;
+    const Eigen::BDCSVD<Eigen::MatrixXd> svd(jacobian, Eigen::ComputeThinU | Eigen::ComputeThinV);
+    const Eigen::VectorXd& sv = svd.singularValues();  // in decreasing order
+    const double largest = sv[0];
+    if (!(largest > 0.0)) return std::nullopt;
+    // min_reciprocal_condition_number 1e-14 on the singular values squared: a ratio of 1e-7.
+    constexpr double kMinRatio = 1e-7;
+    Eigen::VectorXd inverse_squared(k);
+    for (Eigen::Index i = 0; i < k; ++i) {
+      if (sv[i] / largest < kMinRatio) return std::nullopt;
+      inverse_squared[i] = 1.0 / (sv[i] * sv[i]);
+    }
+    Eigen::MatrixXd c = svd.matrixV() * inverse_squared.asDiagonal() * svd.matrixV().transpose();
     if (!c.allFinite()) return std::nullopt;
-    return Eigen::MatrixXd(c);
+    return c;
   } catch (const std::exception&) {
     return std::nullopt;
   }

@@ -17,7 +17,7 @@
 
 namespace veq::fit::detail {
 
-// Levenberg–Marquardt, dense QR, one thread, silent; limits from options.
+// Levenberg–Marquardt, dense normal equations (Cholesky), one thread, silent; limits from options.
 [[nodiscard]] ceres::Solver::Options solver_options(const FitOptions& options);
 
 struct SolveReport {
@@ -33,10 +33,11 @@ struct SolveReport {
                                 const FitOptions& options,
                                 ceres::IterationCallback* callback = nullptr);
 
-// (J^T J)^-1 of the problem's residuals for one parameter block of size k,
-// by ceres::Covariance (dense SVD; fails, giving nullopt, when J is rank
-// deficient to 1e-14 in reciprocal condition). Not yet scaled by the
-// residual variance. Never throws.
-[[nodiscard]] std::optional<Eigen::MatrixXd> unscaled_covariance(ceres::Problem& problem, double* block, int k);
+// (J^T J)^-1 from the Jacobian J of the residuals (rows: residuals, columns: the k parameters), by the
+// singular value decomposition J = U S V^T: V S^-2 V^T, as ceres::Covariance computes it with its DENSE_SVD
+// algorithm (Eigen's BDCSVD), built here from the Jacobian the fit already evaluates instead of through a
+// ceres::Problem. Fails (nullopt) when J is rank deficient to 1e-14 in reciprocal condition (a singular
+// value below 1e-7 of the largest) or not finite. Not yet scaled by the residual variance. Never throws.
+[[nodiscard]] std::optional<Eigen::MatrixXd> unscaled_covariance(const Eigen::MatrixXd& jacobian);
 
 }  // namespace veq::fit::detail

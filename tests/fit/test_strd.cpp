@@ -8,9 +8,11 @@
 // copied from copies of the StRD files (Misra1a's certified values were also known from memory and agree).
 // Separate from the chemistry tests, which check against handbook values.
 #include <ceres/autodiff_cost_function.h>
+#include <ceres/crs_matrix.h>
 
 #include <array>
 #include <cmath>
+#include <limits>
 #include <vector>
 
 #include "fit/solver.hpp"
@@ -110,7 +112,15 @@ void grade(const Problem& p, int start, double min_digits_parameters, double min
   REQUIRE(report.status == veq::fit::FitStatus::converged);
   const double rss = 2.0 * report.cost;
   CHECK(lre(rss, p.certified_rss) >= min_digits_parameters);
-  const auto cov = veq::fit::detail::unscaled_covariance(problem, u.data(), K);
+  // The Jacobian at the solution, from the problem (one row per observation), for the fitter's covariance.
+  ceres::CRSMatrix crs;
+  REQUIRE(problem.Evaluate(ceres::Problem::EvaluateOptions(), nullptr, nullptr, nullptr, &crs));
+  Eigen::MatrixXd jacobian = Eigen::MatrixXd::Zero(crs.num_rows, crs.num_cols);
+  for (int row = 0; row < crs.num_rows; ++row) {
+    for (int at = crs.rows[static_cast<std::size_t>(row)]; at < crs.rows[static_cast<std::size_t>(row) + 1]; ++at)
+      jacobian(row, crs.cols[static_cast<std::size_t>(at)]) = crs.values[static_cast<std::size_t>(at)];
+  }
+  const auto cov = veq::fit::detail::unscaled_covariance(jacobian);
   REQUIRE(cov);
   const double s2 = rss / static_cast<double>(p.x.size() - K);  // residual variance, as the fit scales it
   for (int j = 0; j < K; ++j) {
@@ -179,4 +189,37 @@ TEST_CASE(
   p.certified_sd = {1.5687892471e-04, 2.3309021107e+01, 7.8486103508e-01};
   p.certified_rss = 8.7945855171e+01;
   grade<Mgh10, 3>(p, 1, 7.0, 7.0, 1000);
+}
+
+TEST_CASE("Covariance from the Jacobian: straight line's (X^T X)^-1 in closed form; rank deficiency refused",
+          "[fit][covariance]") {
+  // For y = a + b x the Jacobian's columns are 1 and x, and (X^T X)^-1 has var(b) = 1 / Sxx,
+  // var(a) = sum x^2 / (n Sxx), cov(a, b) = -mean(x) / Sxx, Sxx = sum (x - mean)^2
+  // (ordinary least squares, e.g. Draper & Smith, Applied Regression Analysis, ch. 1; from memory).
+  const std::vector<double> x = {0.5, 1.0, 2.0, 3.5, 4.0, 7.0};
+  const auto n = static_cast<double>(x.size());
+  double sum = 0.0, sum2 = 0.0;
+  for (double v : x) sum += v, sum2 += v * v;
+  const double mean = sum / n;
+  const double sxx = sum2 - n * mean * mean;
+  Eigen::MatrixXd jacobian(static_cast<Eigen::Index>(x.size()), 2);
+  for (std::size_t i = 0; i < x.size(); ++i) {
+    jacobian(static_cast<Eigen::Index>(i), 0) = 1.0;
+    jacobian(static_cast<Eigen::Index>(i), 1) = x[i];
+  }
+  const auto cov = veq::fit::detail::unscaled_covariance(jacobian);
+  REQUIRE(cov);
+  CHECK((*cov)(1, 1) == Approx(1.0 / sxx).epsilon(1e-12));
+  CHECK((*cov)(0, 0) == Approx(sum2 / (n * sxx)).epsilon(1e-12));
+  CHECK((*cov)(0, 1) == Approx(-mean / sxx).epsilon(1e-12));
+  CHECK((*cov)(1, 0) == Approx(-mean / sxx).epsilon(1e-12));
+  // A column that repeats another (two parameters the readings cannot tell apart): no covariance.
+  Eigen::MatrixXd twin(static_cast<Eigen::Index>(x.size()), 2);
+  twin.col(0) = jacobian.col(1);
+  twin.col(1) = 2.0 * jacobian.col(1);
+  CHECK_FALSE(veq::fit::detail::unscaled_covariance(twin));
+  // Fewer rows than parameters, or a non-finite entry: none either.
+  CHECK_FALSE(veq::fit::detail::unscaled_covariance(jacobian.topRows(1)));
+  jacobian(2, 1) = std::numeric_limits<double>::quiet_NaN();
+  CHECK_FALSE(veq::fit::detail::unscaled_covariance(jacobian));
 }
