@@ -208,8 +208,11 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
 
   std::fill(jacobian, jacobian + n * static_cast<std::size_t>(k), 0.0);
   const std::size_t nc = m_chemical.size();
-  std::vector<double> grad(n * nc, 0.0);
-  warm.tangent.assign(2 * n * nc, 0.0);
+  // Every entry of both is written below (no zeroing; kept between calls, so no allocation either).
+  std::vector<double>& grad = m_grad;
+  grad.resize(n * nc);
+  warm.tangent.resize(2 * n * nc);
+  warm.tangent_valid = false;  // until the new tangent is complete
   if (nc > 0) {
     switch (padded_size(static_cast<int>(nc))) {
       case 1:

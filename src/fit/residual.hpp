@@ -103,6 +103,7 @@ class CurveCost final : public ceres::CostFunction {
   const std::vector<double>* m_weights;
   const ceres::LossFunction* m_loss;
   mutable std::vector<double> m_loss_slope;  // d(robust residual)/d(residual) at the last evaluation
+  mutable std::vector<double> m_grad;        // d pH / d (chemical parameter) at the last Jacobian, by reading
   std::vector<int> m_chemical;               // free indices of the chemical parameters
 };
 
