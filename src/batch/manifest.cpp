@@ -7,6 +7,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <iterator>
 #include <vector>
 
 #include "batch/files.hpp"
@@ -78,8 +79,10 @@ std::string ingest_fingerprint(const ingest::IngestOptions& o) {
 // parses far faster than an array of arrays when 10,000 manifests are read back).
 ordered_json thumbnail_json(const report::Thumbnail& t) {
   std::string pts, eps;
-  for (const auto& [x, y] : t.points_px) pts += fmt::format("{}{:.1f},{:.1f}", pts.empty() ? "" : " ", x, y);
-  for (const double x : t.endpoints_px) eps += fmt::format("{}{:.1f}", eps.empty() ? "" : " ", x);
+  // Formatted in place (no string per point).
+  for (const auto& [x, y] : t.points_px)
+    fmt::format_to(std::back_inserter(pts), "{}{:.1f},{:.1f}", pts.empty() ? "" : " ", x, y);
+  for (const double x : t.endpoints_px) fmt::format_to(std::back_inserter(eps), "{}{:.1f}", eps.empty() ? "" : " ", x);
   return {{"points", pts}, {"endpoints", eps}};
 }
 

@@ -78,7 +78,16 @@ struct Sniffed {
 Sniffed sniff(const std::vector<std::string>& lines) {
   Sniffed best;
   std::vector<Field> scratch;
+  // A decimal comma needs one written in a numeric field: no line with a comma, no such candidate; and
+  // with the comma also the separator, only a quoted field can hold one (the unquoted are split at it).
+  bool any_comma = false, any_quoted_comma = false;
+  for (const auto& l : lines) {
+    if (l.find(',') == std::string::npos) continue;
+    any_comma = true;
+    any_quoted_comma = any_quoted_comma || l.find('"') != std::string::npos;
+  }
   for (const Candidate c : kCandidates) {
+    if (c.dec == ',' && (!any_comma || (c.sep == ',' && !any_quoted_comma))) continue;  // the same verdict, unread
     std::vector<Shape> shapes;
     shapes.reserve(lines.size());
     bool evidence = false;
