@@ -673,6 +673,7 @@ struct AttemptLimits {
   double abandon_above_cost =
       std::numeric_limits<double>::infinity();  // best least-squares cost so far [signal unit^2]
   bool least_squares_stage = true;  // false: straight to the robust loss (a start that is already the solution)
+  bool evaluate_only = false;       // no iterations: scored where it starts (an upper bound of a fit from there)
 };
 
 // The loss as Ceres defines it: rho(s) of s = r^2 with rho' and rho'' (ceres::HuberLoss, ceres::CauchyLoss).
@@ -754,14 +755,18 @@ void solve_attempt(Attempt& a, const Prepared& p, const FitOptions& o, double de
   const detail::CurveCost raw(&a.layout, &p.obs, a.warm.get());
 
   AbandonCallback abandon(lim.abandon_above_cost);
-  if (lim.least_squares_stage) {
+  if (lim.evaluate_only) {
+    a.report.status = FitStatus::stopped;
+    a.report.iterations = 0;
+    a.report.termination = "NO_CONVERGENCE: scored at its starting values, not iterated";
+  } else if (lim.least_squares_stage) {
     a.report = solve_with(nullptr, &abandon);
     a.least_squares_cost = a.report.cost;
   } else {
     a.report.status = FitStatus::converged;  // a start that is already (near) the solution
   }
   a.abandoned = abandon.abandoned;
-  if (a.report.status != FitStatus::failed && !a.abandoned && o.loss != LossKind::none) {
+  if (!lim.evaluate_only && a.report.status != FitStatus::failed && !a.abandoned && o.loss != LossKind::none) {
     // The robust stage, unless the least-squares solution is already its solution: every residual inside
     // the threshold, where rho is the square (a weight rho'(r^2) within 1e-5 of 1).
     bool needed = !lim.least_squares_stage;
@@ -1472,6 +1477,9 @@ FitResult fit_titration(const Curve& curve,
                              : 0.0;
       }
     };
+    // How far the runner-up trailed on the screening's readings (before the winner is refitted).
+    const double screening_gap =
+        second != best_per_shape.size() ? best_per_shape[second].score - best_per_shape[chosen].score : 0.0;
     AttemptLimits again = candidate_limits;
     again.function_tolerance = std::max(o.function_tolerance, 0.02 / static_cast<double>(n_all));
     again.least_squares_stage = false;
@@ -1485,6 +1493,21 @@ FitResult fit_titration(const Curve& curve,
       // The runner-up first gets 3 iterations: its score can only fall with more, so one still 10 units
       // behind the winner stays behind (then it is not refined); a closer one gets the full candidate limits.
       if (i == second && best_per_shape[chosen].ok) {
+        // A runner-up that converged on the screening's n readings and still trailed by more than n ln 8
+        // there (its cost 8 times the winner's, the bound that abandons a candidate) is only scored on all
+        // the readings at its screening solution, not refitted: that score is an upper bound of its own. One
+        // that stopped unconverged is refitted as below: it may still be on its way (DEVELOPERS.md, "Model
+        // selection").
+        if (screening_gap > n_points * std::log(8.0) && q.report.status == FitStatus::converged) {
+          AttemptLimits at_start = again;
+          at_start.evaluate_only = true;
+          Attempt scored = run_attempt(L, p, o, delta, at_start);
+          if (scored.ok) {
+            rescore(scored);
+            q = std::move(scored);
+            continue;
+          }
+        }
         AttemptLimits brief = again;
         brief.max_iterations = std::min(again.max_iterations, 3);
         Attempt quick = run_attempt(L, p, o, delta, brief);
