@@ -121,13 +121,23 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
   WarmStates& warm = *m_warm;
   ++warm.evaluations;
   if (jacobian != nullptr) ++warm.jacobian_evaluations;
-  const bool same = warm.valid && std::equal(u, u + k, warm.u.begin());
+  bool same = warm.valid && std::equal(u, u + k, warm.u.begin());
+  const std::size_t n = m_obs->volume_mL.size();
+  // Back at the parameters of the last Jacobian (Ceres ends on them after rejecting a last trial step, so the
+  // residuals at the solution are asked for there): its states are the solution, kept with the tangent.
+  if (!same && warm.tangent_valid && warm.tangent_state.size() == n && warm.tangent_jacobian.size() == n &&
+      std::equal(u, u + k, warm.tangent_u.begin())) {
+    warm.state = warm.tangent_state;
+    warm.jacobian = warm.tangent_jacobian;
+    std::copy(u, u + k, warm.u.begin());
+    warm.valid = true;
+    same = true;
+  }
   const chem::Model<double> md = layout.model(u);
   const FastBalance fb(md);
   std::optional<chem::detail::FastModel> bracketing;
   const chem::SolveOptions solve_options;
 
-  const std::size_t n = m_obs->volume_mL.size();
   if (!same) {
     const std::size_t nc = m_chemical.size();
     const bool predict =
@@ -240,6 +250,7 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
         return false;
     }
     warm.tangent_state = warm.state;
+    warm.tangent_jacobian = warm.jacobian;
     std::copy(u, u + k, warm.tangent_u.begin());
     warm.tangent_valid = true;
   }

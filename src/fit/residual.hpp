@@ -36,6 +36,7 @@ struct WarmStates {
   // each reading's Newton solve from the tangent's prediction, one iteration closer than the last state.
   std::vector<double> tangent;
   std::vector<chem::Equilibrium> tangent_state;
+  std::vector<chem::detail::BalanceJacobian> tangent_jacobian;  // the states' 2x2 Jacobians there
   std::array<double, kMaxFree> tangent_u{};
   bool tangent_valid = false;
   long evaluations = 0;  // calls (for the benchmark)
