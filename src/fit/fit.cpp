@@ -1084,7 +1084,6 @@ FitSummary summarise(
   std::vector<double> r(static_cast<std::size_t>(n), 0.0);
   const detail::CurveCost raw(&a.layout, &p.obs, a.warm.get());
   bool have_residuals = raw.residuals(a.u.data(), r.data());
-  std::vector<double> r_at_solution(static_cast<std::size_t>(n), 0.0);
   double rss = 0.0;
   for (double x : r) rss += x * x;
   if (!have_residuals || !std::isfinite(rss)) {
@@ -1131,11 +1130,14 @@ FitSummary summarise(
   // Covariance in the scaled parameters, then in the parameters' own units.
   std::optional<Eigen::MatrixXd> cov;
   if (have_residuals && k > 0 && dof > 0) {
-    // The Jacobian of the raw residuals at the solution (the states are already there: no re-solve).
+    // The Jacobian of the raw residuals at the solution (the states are already there: no re-solve; the
+    // residuals it also writes are those above).
     Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> jac(n, k);
+    std::vector<double> residuals_again(static_cast<std::size_t>(n), 0.0);
     const double* block = a.u.data();
     double* jac_rows = jac.data();
-    if (raw.Evaluate(&block, r_at_solution.data(), &jac_rows)) cov = detail::unscaled_covariance(Eigen::MatrixXd(jac));
+    if (raw.Evaluate(&block, residuals_again.data(), &jac_rows))
+      cov = detail::unscaled_covariance(Eigen::MatrixXd(jac));
   }
   if (!cov) s.flags.emplace_back(kFlagCovarianceFailed);
   const double t = t_quantile_975(std::max(dof, 1));
