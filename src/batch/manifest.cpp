@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "batch/files.hpp"
+#include "report/svg.hpp"
 #include "veq/method/method.hpp"
 
 namespace veq::batch::detail {
@@ -79,10 +80,17 @@ std::string ingest_fingerprint(const ingest::IngestOptions& o) {
 // parses far faster than an array of arrays when 10,000 manifests are read back).
 ordered_json thumbnail_json(const report::Thumbnail& t) {
   std::string pts, eps;
-  // Formatted in place (no string per point).
-  for (const auto& [x, y] : t.points_px)
-    fmt::format_to(std::back_inserter(pts), "{}{:.1f},{:.1f}", pts.empty() ? "" : " ", x, y);
-  for (const double x : t.endpoints_px) fmt::format_to(std::back_inserter(eps), "{}{:.1f}", eps.empty() ? "" : " ", x);
+  // Tenths by the SVG writer's integer formatting (no string per point, no float formatting).
+  for (const auto& [x, y] : t.points_px) {
+    if (!pts.empty()) pts += ' ';
+    report::svg::append_coord(pts, x);
+    pts += ',';
+    report::svg::append_coord(pts, y);
+  }
+  for (const double x : t.endpoints_px) {
+    if (!eps.empty()) eps += ' ';
+    report::svg::append_coord(eps, x);
+  }
   return {{"points", pts}, {"endpoints", eps}};
 }
 

@@ -242,9 +242,11 @@ class FastBalance {
   // eq, at volume_mL. On success eq holds the solution, jac the 2x2 Jacobian
   // there (F_x, F_L, G_x, G_L), and true is returned; false after
   // max_iterations or on a non-finite value (eq is then unchanged).
-  // It stops once a step is below 1e-7 in x and L, after applying it:
+  // It stops once a step is below 1e-5 in x and L, after applying it:
   // convergence is quadratic there (the slope changes by a factor ln10 per
-  // unit of x), so the error left is of order 1e-13.
+  // unit of x), so the error left is of order 1e-10 in pH, a millionth of a
+  // good electrode's noise (1e-7 cost a second iteration at most readings
+  // for no change a fit can show: DEVELOPERS.md, "Charge-balance fit").
   bool newton(double volume_mL,
               chem::Equilibrium& eq,
               chem::detail::BalanceJacobian& jac,
@@ -278,7 +280,7 @@ class FastBalance {
       x += dx;
       L += dL;
       if (!std::isfinite(x) || !std::isfinite(L) || x < -22.0 || x > 3.0) return false;
-      if (std::fabs(dx) < 1e-7 && std::fabs(dL) < 1e-7) {
+      if (std::fabs(dx) < 1e-5 && std::fabs(dL) < 1e-5) {
         eq.log10_h = x;
         eq.log10_gamma1 = L;
         eq.converged = true;

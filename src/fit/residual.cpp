@@ -221,9 +221,18 @@ bool CurveCost::evaluate(const double* u, double* r, double* jacobian, bool weig
   // Every entry of both is written below (no zeroing; kept between calls, so no allocation either).
   std::vector<double>& grad = m_grad;
   grad.resize(n * nc);
-  warm.tangent.resize(2 * n * nc);
-  warm.tangent_valid = false;  // until the new tangent is complete
-  if (nc > 0) {
+  // At the parameters of the last Jacobian (a new solve starts where the last one ended: the robust stage
+  // after least squares, a refit after the screening), that Jacobian's tangent gives the gradients as
+  // chemical_gradients computed them, d pH/du = -(dx/du + dL/du), and the states are its states.
+  const bool at_tangent =
+      nc > 0 && warm.tangent_valid && warm.tangent.size() == 2 * n * nc && std::equal(u, u + k, warm.tangent_u.begin());
+  if (at_tangent) {
+    for (std::size_t q = 0; q < n * nc; ++q) grad[q] = -(warm.tangent[2 * q] + warm.tangent[2 * q + 1]);
+  } else {
+    warm.tangent.resize(2 * n * nc);
+    warm.tangent_valid = false;  // until the new tangent is complete
+  }
+  if (nc > 0 && !at_tangent) {
     switch (padded_size(static_cast<int>(nc))) {
       case 1:
         chemical_gradients<1>(layout, u, m_chemical, *m_obs, warm, fb, grad, warm.tangent);

@@ -70,8 +70,10 @@ void DecodingSource::start(std::string_view first) {
     // A text export has no NULs and almost no control characters.
     std::size_t control = 0, nul = 0;
     for (unsigned char c : first.substr(0, 8192)) {
-      if (c == 0) ++nul;
-      else if (c < 0x20 && c != '\t' && c != '\n' && c != '\r' && c != '\f' && c != '\v') ++control;
+      if (c == 0)
+        ++nul;
+      else if (c < 0x20 && c != '\t' && c != '\n' && c != '\r' && c != '\f' && c != '\v')
+        ++control;
     }
     const std::size_t sample = std::min<std::size_t>(first.size(), 8192);
     m_looks_binary = nul > 0 || control * 20 > sample;
@@ -131,15 +133,32 @@ void DecodingSource::decode_utf8(std::string_view in, bool last) {
   while (i < n) {
     const auto c = static_cast<unsigned char>(in[i]);
     if (c < 0x80) {
-      emit_codepoint(c);
-      ++i;
+      if (m_pending_cr || c == '\r' || c == 0) {
+        emit_codepoint(c);
+        ++i;
+        continue;
+      }
+      // A run of plain ASCII (no CR, no NUL) goes out as it is, its line feeds counted: what emit_codepoint
+      // does byte by byte.
+      std::size_t j = i;
+      while (j < n) {
+        const auto d = static_cast<unsigned char>(in[j]);
+        if (d >= 0x80 || d == '\r' || d == 0) break;
+        m_lf += d == '\n';
+        ++j;
+      }
+      m_out.append(in.data() + i, j - i);
+      i = j;
       continue;
     }
     std::size_t len = 0;
     std::uint32_t cp = 0;
-    if (c >= 0xC2 && c <= 0xDF) len = 2, cp = c & 0x1F;
-    else if (c >= 0xE0 && c <= 0xEF) len = 3, cp = c & 0x0F;
-    else if (c >= 0xF0 && c <= 0xF4) len = 4, cp = c & 0x07;
+    if (c >= 0xC2 && c <= 0xDF)
+      len = 2, cp = c & 0x1F;
+    else if (c >= 0xE0 && c <= 0xEF)
+      len = 3, cp = c & 0x0F;
+    else if (c >= 0xF0 && c <= 0xF4)
+      len = 4, cp = c & 0x07;
     if (len > 0 && i + len > n && !last) {
       m_carry.assign(in.substr(i));  // sequence split across chunks
       return;
@@ -147,8 +166,10 @@ void DecodingSource::decode_utf8(std::string_view in, bool last) {
     bool valid = len > 0 && i + len <= n;
     for (std::size_t k = 1; valid && k < len; ++k) {
       const auto cc = static_cast<unsigned char>(in[i + k]);
-      if ((cc & 0xC0) != 0x80) valid = false;
-      else cp = (cp << 6) | (cc & 0x3F);
+      if ((cc & 0xC0) != 0x80)
+        valid = false;
+      else
+        cp = (cp << 6) | (cc & 0x3F);
     }
     if (valid && ((len == 3 && (cp < 0x800 || (cp >= 0xD800 && cp <= 0xDFFF))) ||
                   (len == 4 && (cp < 0x10000 || cp > 0x10FFFF)))) {
@@ -194,8 +215,10 @@ void DecodingSource::decode_utf16(std::string_view in, bool last) {
     emit_codepoint(unit);
   }
   if (i < in.size()) {
-    if (last) emit_codepoint(0xFFFD);
-    else m_carry.assign(in.substr(i));
+    if (last)
+      emit_codepoint(0xFFFD);
+    else
+      m_carry.assign(in.substr(i));
   }
 }
 
@@ -226,15 +249,18 @@ bool DecodingSource::refill() {
   std::string_view view(raw);
   if (!m_started) {
     start(view);
-    if (m_encoding == Encoding::utf8_bom) view.remove_prefix(3);
+    if (m_encoding == Encoding::utf8_bom)
+      view.remove_prefix(3);
     else if (view.size() >= 2 && (m_encoding == Encoding::utf16le || m_encoding == Encoding::utf16be) &&
              ((static_cast<unsigned char>(view[0]) == 0xFF && static_cast<unsigned char>(view[1]) == 0xFE) ||
               (static_cast<unsigned char>(view[0]) == 0xFE && static_cast<unsigned char>(view[1]) == 0xFF))) {
       view.remove_prefix(2);
     }
   }
-  if (m_encoding == Encoding::utf16le || m_encoding == Encoding::utf16be) decode_utf16(view, last);
-  else decode_utf8(view, last);
+  if (m_encoding == Encoding::utf16le || m_encoding == Encoding::utf16be)
+    decode_utf16(view, last);
+  else
+    decode_utf8(view, last);
   if (last) flush_pending_cr();
   return true;
 }
@@ -248,8 +274,7 @@ int DecodingSource::read(char* buffer, int size) {
       if (!refill() && m_out.empty()) break;
       continue;
     }
-    const std::size_t n =
-        std::min<std::size_t>(static_cast<std::size_t>(size - written), m_out.size() - m_out_pos);
+    const std::size_t n = std::min<std::size_t>(static_cast<std::size_t>(size - written), m_out.size() - m_out_pos);
     std::memcpy(buffer + written, m_out.data() + m_out_pos, n);
     m_out_pos += n;
     written += static_cast<int>(n);

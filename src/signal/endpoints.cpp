@@ -2,11 +2,11 @@
 // Derivative endpoints: peak acceptance, sub-step interpolation, uncertainty, flags, endpoint level.
 #include "veq/signal/endpoints.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
 #include <numeric>
-
-#include <fmt/format.h>
 
 #include "veq/core/constants.hpp"
 
@@ -55,13 +55,15 @@ Estimate estimate(const Derivatives& d, std::span<const double> v, std::size_t j
 // branches of a titration curve take near an equivalence point, whether the
 // titrated species is strong or weak (see DEVELOPERS.md, "Endpoint level").
 // Returns nullopt when the model does not describe the readings.
-std::optional<double> local_level(std::span<const double> v, std::span<const double> u, std::size_t lo,
-                                  std::size_t hi, double v_ep, double noise_u) {
+std::optional<double> local_level(
+    std::span<const double> v, std::span<const double> u, std::size_t lo, std::size_t hi, double v_ep, double noise_u) {
   std::size_t before = 0, after = 0;
   for (std::size_t i = lo; i <= hi; ++i) (v[i] < v_ep ? before : after)++;
   if (before < 2 || after < 2) return std::nullopt;
-  const double umin = *std::min_element(u.begin() + static_cast<std::ptrdiff_t>(lo), u.begin() + static_cast<std::ptrdiff_t>(hi) + 1);
-  const double umax = *std::max_element(u.begin() + static_cast<std::ptrdiff_t>(lo), u.begin() + static_cast<std::ptrdiff_t>(hi) + 1);
+  const double umin =
+      *std::min_element(u.begin() + static_cast<std::ptrdiff_t>(lo), u.begin() + static_cast<std::ptrdiff_t>(hi) + 1);
+  const double umax =
+      *std::max_element(u.begin() + static_cast<std::ptrdiff_t>(lo), u.begin() + static_cast<std::ptrdiff_t>(hi) + 1);
   if (!(umax - umin > 0.5)) return std::nullopt;  // no jump to speak of
   const double vs = std::max(v[hi] - v[lo], 1e-12);
   const double vc = v_ep;
@@ -73,7 +75,7 @@ std::optional<double> local_level(std::span<const double> v, std::span<const dou
       const double t = kLn10 * (u[i] - p);
       if (std::fabs(t) > 300) continue;
       const double z = std::sinh(t);
-      const double w = 1.0 / (std::cosh(t) * std::cosh(t));
+      const double w = 1.0 / (1.0 + z * z);  // 1 / cosh^2(t)
       const double x = (v[i] - vc) / vs;
       sw += w, sx += w * x, sz += w * z, sxx += w * x * x, sxz += w * x * z;
     }
@@ -163,7 +165,8 @@ std::vector<std::string> EndpointOptions::validate() const {
     p.push_back(fmt::format("min_prominence = {:g}: must be in [0, 1]", min_prominence));
   }
   if (!(min_snr >= 0.0)) p.push_back(fmt::format("min_snr = {:g}: must be 0 or more", min_snr));
-  if (!(min_separation_mL >= 0.0)) p.push_back(fmt::format("min_separation_mL = {:g}: must be 0 or more", min_separation_mL));
+  if (!(min_separation_mL >= 0.0))
+    p.push_back(fmt::format("min_separation_mL = {:g}: must be 0 or more", min_separation_mL));
   if (max_endpoints < 1) p.push_back(fmt::format("max_endpoints = {}: must be at least 1", max_endpoints));
   return p;
 }
@@ -185,8 +188,8 @@ EndpointResult find_endpoints(const Curve& curve, const EndpointOptions& options
                             {file, 0, 0}});
     return out;
   }
-  const int window = options.window_points > 0 ? options.window_points
-                                                : auto_window(v, y, curve.noise_sd, curve.direction);
+  const int window =
+      options.window_points > 0 ? options.window_points : auto_window(v, y, curve.noise_sd, curve.direction);
   out.derivatives = derivatives(v, y, window, curve.noise_sd);
   const Derivatives& d = out.derivatives;
   const std::size_t m = d.d1.size();

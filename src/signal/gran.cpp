@@ -7,6 +7,7 @@
 #include <algorithm>
 #include <boost/math/distributions/chi_squared.hpp>
 #include <cmath>
+#include <optional>
 
 #include "veq/chem/activity.hpp"
 #include "veq/chem/water.hpp"
@@ -116,13 +117,55 @@ struct Trimmed {
   bool ok = false;
 };
 
+// Weighted sums of a window's readings (uncentred), kept as readings leave it: enough to rank the two
+// windows one reading shorter by reduced chi-square without a pass over them.
+class WindowSums {
+ public:
+  WindowSums(const Series& s, std::size_t lo, std::size_t hi) {
+    for (std::size_t i = lo; i <= hi; ++i) add(s, i, 1.0);
+  }
+  void remove(const Series& s, std::size_t i) { add(s, i, -1.0); }
+
+  // Whether dropping reading lo leaves a lower reduced chi-square than dropping hi (what comparing
+  // fit_line on the two windows says); nullopt where the sums cannot say it safely.
+  [[nodiscard]] std::optional<bool> drop_low(const Series& s, std::size_t lo, std::size_t hi) const {
+    const int n = static_cast<int>(hi - lo);  // readings left
+    const std::optional<double> a = reduced_without(s, lo, n), b = reduced_without(s, hi, n);
+    if (!a || !b) return std::nullopt;
+    if (std::fabs(*a - *b) <= 1e-4 * std::max(*a, *b)) return std::nullopt;
+    return *a < *b;
+  }
+
+ private:
+  void add(const Series& s, std::size_t i, double sign) {
+    const double w = sign * s.w[i], x = s.v[i], y = s.g[i];
+    m_w += w, m_x += w * x, m_y += w * y, m_xx += w * x * x, m_xy += w * x * y, m_yy += w * y * y;
+  }
+  // The reduced chi-square of the line through the window without reading i (n readings left).
+  [[nodiscard]] std::optional<double> reduced_without(const Series& s, std::size_t i, int n) const {
+    if (n <= 2) return std::nullopt;
+    const double w = s.w[i], x = s.v[i], y = s.g[i];
+    const double W = m_w - w, X = m_x - w * x, Y = m_y - w * y;
+    const double cxx = (m_xx - w * x * x) - X * X / W;
+    const double cxy = (m_xy - w * x * y) - X * Y / W;
+    const double cyy = (m_yy - w * y * y) - Y * Y / W;
+    const double chi2 = cyy - cxy * cxy / cxx;
+    // Left to the full fits: a degenerate window, or residuals below 1e-6 of the spread (the
+    // difference of the sums then keeps too few digits).
+    if (!(W > 0) || !(cxx > 0) || !(cyy > 0) || !std::isfinite(chi2) || !(chi2 > 1e-6 * cyy)) return std::nullopt;
+    return chi2 / (n - 2);
+  }
+  double m_w = 0, m_x = 0, m_y = 0, m_xx = 0, m_xy = 0, m_yy = 0;
+};
+
 // Shrinks [lo, hi] from whichever end improves the fit more until the line
 // passes the chi-square and runs rules; keeps the best window seen otherwise.
 Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bool fixed) {
   Trimmed best;
   double best_score = 1e300;
-  // The fit of the next, shorter window is one of the two tried below: kept, not refitted.
+  // The fit of the next, shorter window is made when it is chosen: kept, not refitted.
   std::optional<Fit> next;
+  WindowSums sums(s, lo, hi);
   while (static_cast<int>(hi - lo + 1) >= min_points) {
     const Fit f = next ? *next : fit_line(s.v, s.g, s.w, lo, hi);
     if (!(std::fabs(f.b) > 0) || !std::isfinite(f.a)) break;
@@ -135,12 +178,20 @@ Trimmed trim(const Series& s, std::size_t lo, std::size_t hi, int min_points, bo
       return {f, lo, hi, !fixed || f.reduced() <= chi2_limit(f.n), true};
     }
     if (static_cast<int>(hi - lo) < min_points) break;
-    const Fit fl = fit_line(s.v, s.g, s.w, lo + 1, hi);
-    const Fit fh = fit_line(s.v, s.g, s.w, lo, hi - 1);
-    if (fl.reduced() < fh.reduced())
-      ++lo, next = fl;
+    // Which end to drop: the two shorter windows' reduced chi-squares from the window's running sums
+    // (no pass over the readings); only where the sums cannot order them safely (within 1e-4 of each
+    // other, or a fit so close that the sums' cancellation matters) are both fitted in full, as before.
+    // The window kept is fitted in full either way.
+    const std::optional<bool> by_sums = sums.drop_low(s, lo, hi);
+    const bool drop_low =
+        by_sums ? *by_sums
+                : fit_line(s.v, s.g, s.w, lo + 1, hi).reduced() < fit_line(s.v, s.g, s.w, lo, hi - 1).reduced();
+    sums.remove(s, drop_low ? lo : hi);
+    if (drop_low)
+      ++lo;
     else
-      --hi, next = fh;
+      --hi;
+    next = fit_line(s.v, s.g, s.w, lo, hi);
   }
   return best;
 }

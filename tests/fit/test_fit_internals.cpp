@@ -80,8 +80,10 @@ TEST_CASE("fast balance: the warm Newton solve equals chem's bracketed solve", "
     if (i == 0) newton = ref.state;
     CAPTURE(V);
     REQUIRE(fb.newton(V, newton, jac));
-    CHECK(newton.log10_h == veq::test::close(ref.state.log10_h, 0.0, 1e-11));
-    CHECK(newton.log10_gamma1 == veq::test::close(ref.state.log10_gamma1, 0.0, 1e-11));
+    // Newton stops after a step below 1e-5 (FastBalance::newton): convergence is quadratic with a factor
+    // of order ln 10, so what is left is of order 1e-10 (1e-11 with the earlier 1e-7 stop).
+    CHECK(newton.log10_h == veq::test::close(ref.state.log10_h, 0.0, 1e-10));
+    CHECK(newton.log10_gamma1 == veq::test::close(ref.state.log10_gamma1, 0.0, 1e-10));
   }
 }
 
