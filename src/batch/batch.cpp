@@ -113,12 +113,21 @@ struct Context {
   fs::path runs_dir;
   std::string settings;  // settings identity plus the ingest options
   Log& log;
+  Journal& journal;
 };
 
 void remove_stale_outputs(const Context& cx, const Task& t) {
   std::error_code ec;
-  fs::remove(cx.runs_dir / t.stem / kResultJson, ec);
-  fs::remove(cx.runs_dir / t.stem / kReportHtml, ec);
+  fs::remove(cx.runs_dir / result_name(t.stem), ec);
+  fs::remove(cx.runs_dir / report_name(t.stem), ec);
+}
+
+// A record of the journal as a JSON object; nullopt when it does not parse as one.
+std::optional<ordered_json> parsed(const std::optional<std::string>& record) {
+  if (!record) return std::nullopt;
+  ordered_json j = ordered_json::parse(*record, nullptr, false);
+  if (j.is_discarded() || !j.is_object()) return std::nullopt;
+  return j;
 }
 
 Outcome process(const Context& cx, const Task& t) {
@@ -126,13 +135,6 @@ Outcome process(const Context& cx, const Task& t) {
   const auto t0 = Clock::now();
   if (cx.hooks.before_run) cx.hooks.before_run(t.rel);
   const fs::path source_path = cx.opt.input_dir / fs::path(t.rel);
-  const fs::path run_dir = cx.runs_dir / t.stem;
-  const fs::path manifest_path = run_dir / kManifestJson;
-  // One folder per run: its files are created and renamed without contending
-  // with the other workers for one big folder. Leftovers of a killed batch in it go first.
-  if (const std::size_t swept = sweep_temporaries(run_dir); swept > 0) {
-    cx.log.line(fmt::format("removed {} temporary file(s) left by an interrupted batch for {}", swept, t.rel));
-  }
   Source src = read_source(source_path, cx.opt.ingest.max_file_bytes);
   if (src.state == Source::State::missing) {
     out.status = RunStatus::missing;
@@ -141,9 +143,9 @@ Outcome process(const Context& cx, const Task& t) {
   }
   const std::string source_hash = src.state == Source::State::ok ? hash_hex(hash64(src.bytes)) : std::string();
 
-  const std::optional<ordered_json> earlier = read_json(manifest_path);
+  const std::optional<ordered_json> earlier = parsed(cx.journal.find(t.stem));
   const ManifestKey key{t.rel, source_hash, src.size, cx.opt.method_identity, cx.settings, cx.opt.html_reports};
-  if (earlier && !cx.opt.force && still_valid(*earlier, key, run_dir)) {
+  if (earlier && !cx.opt.force && still_valid(*earlier, key, cx.runs_dir, t.stem)) {
     out.status = *status_from_string((*earlier)["row"]["status"].get<std::string>());
     out.manifest = true;
     out.resumed = true;
@@ -152,6 +154,7 @@ Outcome process(const Context& cx, const Task& t) {
   out.replaced = earlier.has_value();
 
   ordered_json m;
+  m["stem"] = t.stem;  // first: the journal finds a record by it
   m["schema"] = kManifestSchema;
   m["veq_version"] = version();
   m["file"] = t.rel;
@@ -171,7 +174,7 @@ Outcome process(const Context& cx, const Task& t) {
     json_text = report::to_json(a);
     if (cx.opt.html_reports) {
       report::HtmlOptions ho;
-      ho.index_href = "../../" + std::string(kIndexHtml);
+      ho.index_href = "../" + std::string(kIndexHtml);
       html_text = report::to_html(a, ho);
     }
     m["row"] = analysed_row(a, status);
@@ -187,24 +190,21 @@ Outcome process(const Context& cx, const Task& t) {
   // Other exceptions are bugs; the caller turns them into internal_error.
 
   try {
-    std::error_code ec;
-    fs::create_directory(run_dir, ec);
-    if (ec) throw InputError({run_dir.string(), 0, 0}, "cannot create the run's output folder: " + ec.message());
     if (!json_text.empty()) {
-      io::write_file_atomically(run_dir / kResultJson, json_text, true, io::Sync::deferred);
-      outputs["json"] = {{"name", kResultJson}, {"xxh3", hash_hex(hash64(json_text))}};
+      const std::string name = result_name(t.stem);
+      io::write_file_atomically(cx.runs_dir / name, json_text, true, io::Sync::deferred);
+      outputs["json"] = {{"name", name}, {"xxh3", hash_hex(hash64(json_text))}};
     }
     if (!html_text.empty()) {
-      io::write_file_atomically(run_dir / kReportHtml, html_text, true, io::Sync::deferred);
-      outputs["html"] = {{"name", kReportHtml}, {"xxh3", hash_hex(hash64(html_text))}};
+      const std::string name = report_name(t.stem);
+      io::write_file_atomically(cx.runs_dir / name, html_text, true, io::Sync::deferred);
+      outputs["html"] = {{"name", name}, {"xxh3", hash_hex(hash64(html_text))}};
     }
     if (json_text.empty()) remove_stale_outputs(cx, t);
     m["outputs"] = outputs;
     // Names and metadata may hold bytes that are not UTF-8: replaced (U+FFFD) in JSON, never a failure.
-    io::write_file_atomically(manifest_path,
-                              m.dump(1, ' ', false, nlohmann::json::error_handler_t::replace) + "\n",
-                              true,
-                              io::Sync::deferred);
+    // One line (the dump escapes newlines in strings), after the files it lists.
+    cx.journal.append(t.stem, m.dump(-1, ' ', false, nlohmann::json::error_handler_t::replace));
   } catch (const InputError& e) {
     out.status = RunStatus::output_error;
     out.error = t.rel + ": " + error_text(e);
@@ -263,23 +263,34 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
       log.line(fmt::format("removed {} temporary file(s) left by an interrupted batch in {}", n, d.string()));
     }
   }
+  if (const std::size_t n = remove_folder_layout(runs_dir); n > 0) {
+    log.line(
+        fmt::format("removed {} run folder(s) of an earlier veq's layout (runs/<name>/manifest.json); their "
+                    "runs are done again into runs/<name>.json",
+                    n));
+  }
+  Journal journal(runs_dir / std::string(kManifestJournal));
+  if (journal.cut_short()) log.line("the manifest journal ended in a line cut short (a killed batch): removed");
+  if (journal.dropped() > 0) {
+    log.line(fmt::format("{} unusable line(s) in the manifest journal ignored; their runs are done again",
+                         journal.dropped()));
+  }
 
   std::vector<Task> tasks;
   tasks.reserve(listing.files.size());
   for (auto& rel : listing.files) tasks.push_back({rel, output_stem(rel)});
-  {
-    std::vector<std::string> stems;
-    stems.reserve(tasks.size());
-    for (const auto& t : tasks) stems.push_back(t.stem);
-    std::sort(stems.begin(), stems.end());
-    if (std::adjacent_find(stems.begin(), stems.end()) != stems.end()) {
-      throw std::logic_error("two runs map to the same output name (a 64-bit hash collision)");
-    }
+  std::vector<std::string> listed_stems;  // sorted: the journal's records of other runs are kept after these
+  listed_stems.reserve(tasks.size());
+  for (const auto& t : tasks) listed_stems.push_back(t.stem);
+  std::sort(listed_stems.begin(), listed_stems.end());
+  if (std::adjacent_find(listed_stems.begin(), listed_stems.end()) != listed_stems.end()) {
+    throw std::logic_error("two runs map to the same output name (a 64-bit hash collision)");
   }
   unsigned jobs = options.jobs != 0 ? options.jobs : std::max(1u, std::thread::hardware_concurrency());
   jobs = static_cast<unsigned>(std::clamp<std::size_t>(tasks.size(), 1, jobs));
 
-  Context cx{options, hooks, runs_dir, options.settings_identity + "|" + ingest_fingerprint(options.ingest), log};
+  Context cx{
+      options, hooks, runs_dir, options.settings_identity + "|" + ingest_fingerprint(options.ingest), log, journal};
   log.line(fmt::format("start: veq {}, {} runs in '{}' (shard {}/{}, {} matched in all), {} worker(s){}{}",
                        version(),
                        tasks.size(),
@@ -425,15 +436,21 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   };
   struct Pieces {
     std::string csv, json, index, errors;
+    std::string record;         // the run's journal line, for the journal rewritten in listing order
     std::vector<Value> values;  // results, for replicate statistics
   };
   auto pieces_of = [&](std::size_t i) -> Pieces {
     const Task& t = tasks[i];
     const Outcome& o = outcomes[i];
     Pieces p;
+    // An earlier batch's record of a run not redone this time (missing, stopped, failed inside) stays.
+    if (auto record = journal.find(t.stem)) p.record = std::move(*record);
     try {
       std::optional<ordered_json> manifest;
-      if (o.manifest) manifest = read_json(runs_dir / t.stem / kManifestJson);
+      if (o.manifest && !p.record.empty()) {
+        ordered_json j = ordered_json::parse(p.record, nullptr, false);
+        if (!j.is_discarded() && j.is_object()) manifest = std::move(j);
+      }
       ordered_json row;
       if (manifest && manifest->contains("row") && (*manifest)["row"].is_object()) {
         row = (*manifest)["row"];
@@ -485,6 +502,9 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
     }
     return p;
   };
+  // The journal rewritten: the listed runs' records in listing order, then those of other runs (files gone
+  // from the folder, other shards) by name; the same bytes whatever the order the workers appended in.
+  io::AtomicFile compacted(runs_dir / std::string(kManifestJournal), true);
   constexpr std::size_t kChunk = 512;
   std::vector<Pieces> chunk;
   std::map<std::pair<std::string, std::string>, std::vector<Value>> replicate_groups;
@@ -499,13 +519,19 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
     }
     for (auto& h : helpers) h.join();
     Pieces joined;  // one write per file and chunk
+    std::string records;
+    std::size_t record_bytes = 0;
+    for (const Pieces& p : chunk) record_bytes += p.record.size() + 1;
+    records.reserve(record_bytes);
     for (const Pieces& p : chunk) {
+      if (!p.record.empty()) records.append(p.record).push_back('\n');
       joined.csv += p.csv;
       joined.json += p.json;
       joined.index += p.index;
       joined.errors += p.errors;
       for (const auto& v : p.values) replicate_groups[{v.group, v.result}].push_back(v);
     }
+    compacted.write(records);
     csv.write(joined.csv);
     json.write(joined.json);
     index.write(joined.index);
@@ -600,6 +626,11 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
                                *options.max_rsd_percent));
     }
   }
+  for (const std::string& stem : journal.stems()) {
+    if (std::binary_search(listed_stems.begin(), listed_stems.end(), stem)) continue;
+    if (auto record = journal.find(stem)) compacted.write(*record + "\n");
+  }
+  compacted.commit();
   json.write(tasks.empty() ? "],\n  \"replicates\": " : "\n  ],\n  \"replicates\": ");
   json.write(indent(reps.dump(2, ' ', false, nlohmann::json::error_handler_t::replace), "  ").substr(2) + "\n}\n");
   index.write(report::index_html_end(rep_rows));

@@ -13,6 +13,7 @@
 #include <chrono>
 #include <cstring>
 #include <ctime>
+#include <stdexcept>
 
 #include "veq/batch/batch.hpp"
 #include "veq/batch/listing.hpp"
@@ -22,7 +23,6 @@
 namespace veq::batch::detail {
 
 namespace fs = std::filesystem;
-using nlohmann::ordered_json;
 
 std::string local_time_now() {
   const auto now = std::chrono::system_clock::now();
@@ -71,6 +71,133 @@ void Log::line(const std::string& text) {
   const std::lock_guard<std::mutex> lock(m_mutex);
   const ssize_t n = ::write(m_fd, l.data(), l.size());
   (void)n;  // a log that cannot be written never stops the batch
+}
+
+namespace {
+constexpr std::string_view kStemPrefix = "{\"stem\":\"";
+}  // namespace
+
+std::string_view Journal::stem_of(std::string_view record) {
+  if (record.substr(0, kStemPrefix.size()) != kStemPrefix) return {};
+  record.remove_prefix(kStemPrefix.size());
+  const std::size_t end = record.find('"');
+  if (end == std::string_view::npos || end == 0) return {};
+  return record.substr(0, end);
+}
+
+Journal::Journal(const fs::path& path) : m_path(path) {
+  m_fd = ::open(path.c_str(), O_RDWR | O_CREAT | O_APPEND | O_CLOEXEC, 0644);
+  if (m_fd < 0) {
+    throw InputError({path.string(), 0, 0},
+                     std::string("cannot open the batch's manifest journal: ") + std::strerror(errno),
+                     "check that the output folder is writable");
+  }
+  // One pass in blocks: where each line starts, its length, and the first bytes (enough for the stem).
+  constexpr std::size_t kBlock = std::size_t{1} << 20;
+  constexpr std::size_t kHead = 200;  // stems are at most 97 characters
+  std::vector<char> block(kBlock);
+  std::string head;
+  std::uint64_t line_start = 0, pos = 0;
+  auto line_done = [&](std::uint64_t end) {
+    const std::string_view stem = stem_of(head);
+    if (stem.empty()) {
+      ++m_dropped;
+    } else {
+      m_index[std::string(stem)] = {line_start, end - line_start};
+    }
+    head.clear();
+    line_start = end + 1;
+  };
+  for (;;) {
+    const ssize_t n = ::pread(m_fd, block.data(), block.size(), static_cast<off_t>(pos));
+    if (n < 0 && errno == EINTR) continue;
+    if (n < 0) {
+      const int err = errno;
+      ::close(m_fd);
+      throw InputError({path.string(), 0, 0},
+                       std::string("cannot read the batch's manifest journal: ") + std::strerror(err));
+    }
+    if (n == 0) break;
+    for (ssize_t i = 0; i < n; ++i) {
+      const char c = block[static_cast<std::size_t>(i)];
+      if (c == '\n') {
+        line_done(pos + static_cast<std::uint64_t>(i));
+      } else if (head.size() < kHead) {
+        head += c;
+      }
+    }
+    pos += static_cast<std::uint64_t>(n);
+  }
+  m_size = line_start;
+  if (pos > line_start) {
+    // A last line without its newline: a write cut short by a kill. Cut off, so that appends start a line.
+    if (::ftruncate(m_fd, static_cast<off_t>(line_start)) != 0) {
+      const int err = errno;
+      ::close(m_fd);
+      throw InputError({path.string(), 0, 0},
+                       std::string("cannot repair the batch's manifest journal: ") + std::strerror(err));
+    }
+    m_cut_short = true;
+  }
+}
+
+Journal::~Journal() {
+  if (m_fd >= 0) ::close(m_fd);
+}
+
+std::optional<std::string> Journal::find(const std::string& stem) const {
+  Where w;
+  {
+    const std::lock_guard<std::mutex> lock(m_mutex);
+    const auto it = m_index.find(stem);
+    if (it == m_index.end()) return std::nullopt;
+    w = it->second;
+  }
+  std::string text(static_cast<std::size_t>(w.length), '\0');
+  std::size_t got = 0;
+  while (got < text.size()) {
+    const ssize_t n = ::pread(m_fd, text.data() + got, text.size() - got, static_cast<off_t>(w.offset + got));
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) return std::nullopt;
+    got += static_cast<std::size_t>(n);
+  }
+  return text;
+}
+
+void Journal::append(const std::string& stem, std::string_view record) {
+  if (stem_of(record) != stem || record.find('\n') != std::string_view::npos) {
+    throw std::logic_error("a journal record must start with its stem and hold no newline");
+  }
+  std::string line(record);
+  line += '\n';
+  const std::lock_guard<std::mutex> lock(m_mutex);
+  std::size_t put = 0;
+  while (put < line.size()) {
+    const ssize_t n = ::write(m_fd, line.data() + put, line.size() - put);
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) {
+      const int err = n < 0 ? errno : ENOSPC;
+      // Nothing half-written stays: the next record starts where this one would have.
+      // (Should that fail too, the next record follows the cut-short bytes on their line: it is found
+      // here by its own offset, and the next opening ignores the line.)
+      if (put > 0 && ::ftruncate(m_fd, static_cast<off_t>(m_size)) != 0) m_size += put;
+      throw InputError({m_path.string(), 0, 0},
+                       std::string("cannot write the run's manifest: ") + std::strerror(err),
+                       "check the free space of the output folder");
+    }
+    put += static_cast<std::size_t>(n);
+  }
+  m_index[stem] = {m_size, record.size()};
+  m_size += line.size();
+}
+
+std::vector<std::string> Journal::stems() const {
+  const std::lock_guard<std::mutex> lock(m_mutex);
+  std::vector<std::string> v;
+  v.reserve(m_index.size());
+  for (const auto& [stem, w] : m_index) v.push_back(stem);
+  std::sort(v.begin(), v.end());
+  return v;
 }
 
 Source read_source(const fs::path& path, std::uint64_t max_bytes) {
@@ -140,14 +267,6 @@ std::string hash_of_file(const fs::path& p) {
   return hash_hex(hash64(s.bytes));
 }
 
-std::optional<ordered_json> read_json(const fs::path& p) {
-  Source s = read_source(p, std::uint64_t{16} << 20);
-  if (s.state != Source::State::ok) return std::nullopt;
-  ordered_json j = ordered_json::parse(s.bytes, nullptr, false);
-  if (j.is_discarded() || !j.is_object()) return std::nullopt;
-  return j;
-}
-
 // Removes temporaries a killed batch left in dir (not recursive); returns how many.
 std::size_t sweep_temporaries(const fs::path& dir) {
   std::error_code ec;
@@ -157,6 +276,25 @@ std::size_t sweep_temporaries(const fs::path& dir) {
     if (name.find(io::kTemporaryMarker) == std::string::npos) continue;
     std::error_code rec;
     if (fs::remove(it->path(), rec)) ++n;
+  }
+  return n;
+}
+
+}  // namespace veq::batch::detail
+
+namespace veq::batch::detail {
+
+std::size_t remove_folder_layout(const fs::path& runs_dir) {
+  std::error_code ec;
+  std::vector<fs::path> old;
+  for (fs::directory_iterator it(runs_dir, ec), end; !ec && it != end; it.increment(ec)) {
+    std::error_code dec;
+    if (it->is_directory(dec) && fs::exists(it->path() / "manifest.json", dec)) old.push_back(it->path());
+  }
+  std::size_t n = 0;
+  for (const auto& d : old) {
+    std::error_code rec;
+    if (fs::remove_all(d, rec) != static_cast<std::uintmax_t>(-1) && !rec) ++n;
   }
   return n;
 }

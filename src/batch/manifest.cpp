@@ -212,9 +212,18 @@ std::string error_text(const InputError& e) {
   return s;
 }
 
-bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& run_dir) {
+std::string result_name(const std::string& stem) {
+  return stem + std::string(kResultExtension);
+}
+
+std::string report_name(const std::string& stem) {
+  return stem + std::string(kReportExtension);
+}
+
+bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& runs_dir, const std::string& stem) {
   auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
-  if (str("schema") != kManifestSchema || str("veq_version") != version() || str("file") != as_written(key.file)) {
+  if (str("schema") != kManifestSchema || str("stem") != stem || str("veq_version") != version() ||
+      str("file") != as_written(key.file)) {
     return false;
   }
   if (str("method") != key.method || str("settings") != key.settings) return false;
@@ -237,8 +246,8 @@ bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& 
     (void)kind;
     if (!o.is_object() || !o.contains("name") || !o["name"].is_string() || !o.contains("xxh3")) return false;
     const std::string name = o["name"].get<std::string>();
-    if (name != kResultJson && name != kReportHtml) return false;
-    if (hash_of_file(run_dir / name) != o["xxh3"].get<std::string>()) return false;
+    if (name != result_name(stem) && name != report_name(stem)) return false;
+    if (hash_of_file(runs_dir / name) != o["xxh3"].get<std::string>()) return false;
   }
   return true;
 }
@@ -270,7 +279,7 @@ report::SummaryRow row_from(const ordered_json& row,
   r.flags = s("flags");
   r.error = s("error");
   if (manifest != nullptr && manifest->contains("outputs") && (*manifest)["outputs"].contains("html")) {
-    r.report_href = fmt::format("{}/{}/{}", kRunsFolder, stem, kReportHtml);
+    r.report_href = fmt::format("{}/{}", kRunsFolder, report_name(stem));
   }
   if (manifest != nullptr && manifest->contains("thumbnail")) r.thumbnail = thumbnail_from((*manifest)["thumbnail"]);
   return r;
@@ -289,8 +298,8 @@ ordered_json json_entry(const ordered_json& row,
   e["json"] = nullptr;
   if (manifest != nullptr && manifest->contains("outputs")) {
     const auto& o = (*manifest)["outputs"];
-    if (o.contains("html")) e["report"] = fmt::format("{}/{}/{}", kRunsFolder, stem, kReportHtml);
-    if (o.contains("json")) e["json"] = fmt::format("{}/{}/{}", kRunsFolder, stem, kResultJson);
+    if (o.contains("html")) e["report"] = fmt::format("{}/{}", kRunsFolder, report_name(stem));
+    if (o.contains("json")) e["json"] = fmt::format("{}/{}", kRunsFolder, result_name(stem));
   }
   return e;
 }

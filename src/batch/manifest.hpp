@@ -49,16 +49,21 @@ struct ManifestKey {
 };
 
 // Whether an earlier manifest still stands: same key, same veq version, a
-// known status, and every output it lists in run_dir with the bytes it recorded.
+// known status, and every output it lists (runs_dir/<stem>.json, .html) with the bytes it recorded.
 [[nodiscard]] bool still_valid(const ordered_json& manifest,
                                const ManifestKey& key,
-                               const std::filesystem::path& run_dir);
+                               const std::filesystem::path& runs_dir,
+                               const std::string& stem);
+
+// The names of a run's result and report in runs/.
+[[nodiscard]] std::string result_name(const std::string& stem);
+[[nodiscard]] std::string report_name(const std::string& stem);
 
 // Text indented by `by` on every line (summary.json entries sit inside "runs").
 [[nodiscard]] std::string indent(const std::string& text, std::string_view by);
 
 // The listing row and the summary.json entry of a run, from its summary row
-// and (when it has one) its manifest. stem names its folder in runs/.
+// and (when it has one) its manifest. stem names its files in runs/.
 [[nodiscard]] report::SummaryRow row_from(const ordered_json& row,
                                           const std::string& rel,
                                           const std::string& stem,

@@ -9,9 +9,10 @@
 #include <nlohmann/json.hpp>
 #include <set>
 
+#include "batch/files.hpp"
+#include "support/charge_balance.hpp"
 #include "support/csv_parse.hpp"
 #include "support/files.hpp"
-#include "support/charge_balance.hpp"
 #include "support/simulated_runs.hpp"
 #include "support/xml_check.hpp"
 #include "veq/batch/batch.hpp"
@@ -211,7 +212,22 @@ TEST_CASE("same folder, same outputs byte for byte, whatever the number of worke
   const auto c = veq::batch::run_batch(options_for(root / "in", root / "four", 4));
   CHECK(a.listed == 15);
   const auto one = outputs(root / "one");
-  CHECK(one.size() == 5 + 1 + 14 * 3 + 1);  // summaries (with replicates.csv), marker, json/html/manifest per run, a manifest for bad.csv
+  // Summaries (with replicates.csv), the folder's marker, json and html per good run, the manifest journal.
+  CHECK(one.size() == 5 + 1 + 14 * 2 + 1);
+  // The journal: one record a run (bad.csv's too), in path order, each line a JSON object naming its stem.
+  const std::string journal = one.at("runs/manifests.jsonl");
+  std::vector<std::string> files;
+  for (std::size_t at = 0; at < journal.size();) {
+    const std::size_t nl = journal.find('\n', at);
+    REQUIRE(nl != std::string::npos);
+    const auto rec = nlohmann::json::parse(journal.substr(at, nl - at), nullptr, false);
+    REQUIRE(rec.is_object());
+    CHECK(rec["stem"] == veq::batch::output_stem(rec["file"].get<std::string>()));
+    files.push_back(rec["file"].get<std::string>());
+    at = nl + 1;
+  }
+  CHECK(files.size() == 15);
+  CHECK(std::is_sorted(files.begin(), files.end()));
   CHECK(one == outputs(root / "two"));
   CHECK(one == outputs(root / "four"));
 }
@@ -243,7 +259,7 @@ TEST_CASE("resuming: unchanged runs are kept, changed ones redone, outputs ident
   CHECK(outputs(out) == clean);
 
   // A damaged output is noticed (its hash no longer matches) and rewritten.
-  const fs::path json = out / "runs" / veq::batch::output_stem(sim.name) / "result.json";
+  const fs::path json = out / "runs" / (veq::batch::output_stem(sim.name) + ".json");
   write_file(json, slurp(json).substr(0, 100));
   again = veq::batch::run_batch(options_for(in, out));
   CHECK(again.processed == 1);
@@ -298,7 +314,7 @@ TEST_CASE("stale temporaries are swept; the output folder is protected", "[batch
   write_file(out / ("summary.csv" + marker + "99-1"), "half");
   write_file(out / "runs" / ("x.json" + marker + "99-2"), "half");
   const std::string one = veq::test::simulate_run(11, 1).name;
-  write_file(out / "runs" / veq::batch::output_stem(one) / ("report.html" + marker + "99-3"), "<html");
+  write_file(out / "runs" / (veq::batch::output_stem(one) + ".html" + marker + "99-3"), "<html");
   (void)veq::batch::run_batch(options_for(in, out));
   CHECK_FALSE(any_temporary(out));
   CHECK(outputs(out) == clean);
@@ -327,6 +343,73 @@ TEST_CASE("stale temporaries are swept; the output folder is protected", "[batch
   // A missing input folder is reported before anything is created.
   CHECK_THROWS_AS(veq::batch::run_batch(options_for(root / "nope", root / "never")), veq::InputError);
   CHECK_FALSE(fs::exists(root / "never"));
+}
+
+TEST_CASE("the manifest journal: a line cut short is dropped, the latest record stands, others are kept", "[batch]") {
+  const fs::path root = veq::test::fresh_dir("batch_journal");
+  const fs::path path = root / "manifests.jsonl";
+  using veq::batch::detail::Journal;
+  {
+    Journal j(path);
+    CHECK(j.stems().empty());
+    j.append("a-1", R"({"stem":"a-1","v":1})");
+    j.append("b-2", R"({"stem":"b-2","v":2})");
+    j.append("a-1", R"({"stem":"a-1","v":3})");
+    CHECK(j.find("a-1") == std::optional<std::string>(R"({"stem":"a-1","v":3})"));
+    CHECK(j.find("b-2") == std::optional<std::string>(R"({"stem":"b-2","v":2})"));
+    CHECK_FALSE(j.find("c-3").has_value());
+    CHECK_THROWS_AS(j.append("a-1", R"({"stem":"b-2"})"), std::logic_error);  // a record names its own stem
+    CHECK_THROWS_AS(j.append("a-1", "{\"stem\":\"a-1\",\n}"), std::logic_error);
+  }
+  // What a kill in the middle of a write leaves: the last line without its newline; and a line of rubbish.
+  const std::string whole = slurp(path);
+  write_file(path, whole + "rubbish\n" + R"({"stem":"c-3","v":)");
+  {
+    Journal j(path);
+    CHECK(j.cut_short());
+    CHECK(j.dropped() == 1);
+    CHECK(j.stems() == std::vector<std::string>{"a-1", "b-2"});
+    CHECK(slurp(path) == whole + "rubbish\n");  // cut back to its last whole line
+    j.append("c-3", R"({"stem":"c-3","v":4})");
+    CHECK(j.find("c-3") == std::optional<std::string>(R"({"stem":"c-3","v":4})"));
+  }
+  {
+    const Journal j(path);
+    CHECK_FALSE(j.cut_short());
+    CHECK(j.stems() == std::vector<std::string>{"a-1", "b-2", "c-3"});
+    CHECK(j.find("a-1") == std::optional<std::string>(R"({"stem":"a-1","v":3})"));
+  }
+
+  // In a batch: the records of runs no longer in the folder are kept (their results stay in runs/), so the
+  // file put back is not done again; the folders of the layout before the journal are removed.
+  const fs::path in = root / "in", out = root / "out";
+  add_simulated(in, 3);
+  const std::string gone = veq::test::simulate_run(11, 1).name;
+  (void)veq::batch::run_batch(options_for(in, out));
+  const auto clean = outputs(out);
+  const std::string kept = slurp(in / gone);
+  fs::remove(in / gone);
+  const auto two = veq::batch::run_batch(options_for(in, out));
+  CHECK(two.listed == 2);
+  CHECK(two.resumed == 2);
+  // The same records, the gone run's now after the listed ones.
+  const auto lines_of = [](const std::string& text) {
+    std::multiset<std::string> lines;
+    for (std::size_t at = 0, nl = 0; (nl = text.find('\n', at)) != std::string::npos; at = nl + 1)
+      lines.insert(text.substr(at, nl - at));
+    return lines;
+  };
+  const std::string journal = slurp(out / "runs" / "manifests.jsonl");
+  CHECK(lines_of(journal) == lines_of(clean.at("runs/manifests.jsonl")));
+  CHECK(Journal::stem_of(journal.substr(journal.rfind('\n', journal.size() - 2) + 1)) == veq::batch::output_stem(gone));
+  CHECK(fs::exists(out / "runs" / (veq::batch::output_stem(gone) + ".json")));
+  write_file(in / gone, kept);
+  write_file(out / "runs" / "old_layout.csv-0123456789abcdef" / "manifest.json", "{}");
+  const auto three = veq::batch::run_batch(options_for(in, out));
+  CHECK(three.resumed == 3);
+  CHECK(three.processed == 0);
+  CHECK_FALSE(fs::exists(out / "runs" / "old_layout.csv-0123456789abcdef"));
+  CHECK(outputs(out) == clean);
 }
 
 TEST_CASE("exceptions inside a run become its status: input errors and internal errors", "[batch]") {

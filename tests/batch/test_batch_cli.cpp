@@ -100,6 +100,12 @@ void check_whole(const fs::path& out) {
       const auto x = veq::test::check_xml(bytes);
       INFO(x.error);
       CHECK(x.ok);
+    } else if (rel.size() > 6 && rel.substr(rel.size() - 6) == ".jsonl") {
+      // The manifest journal: every whole line a JSON object; only a last line may be cut short (its
+      // newline missing), and the next batch drops it.
+      for (std::size_t at = 0, nl = 0; (nl = bytes.find('\n', at)) != std::string::npos; at = nl + 1) {
+        CHECK(nlohmann::json::parse(bytes.substr(at, nl - at), nullptr, false).is_object());
+      }
     }
   }
 }

@@ -113,15 +113,18 @@ struct BatchSummary {
 [[nodiscard]] report::SummaryRow summary_row_of(const Analysis& analysis, const std::string& file, RunStatus& status);
 
 // Runs every file of the folder (this shard) on `jobs` threads and writes, in
-// output_dir: runs/<stem>/result.json, report.html and manifest.json per run
-// (stem from output_stem()), then summary.csv, summary.json,
-// index.html and errors.txt, rebuilt from the manifests in the order of
-// relative paths, so the same folder gives the same bytes whatever the thread
-// timing or earlier interruptions; and appends to batch.log (the one file
-// with times in it). Every output file is written to a temporary name and
-// renamed. A run whose manifest shows the same source content hash, method,
-// settings and veq version, and whose outputs are intact, is not redone
-// unless force. One file's failure is its own status, never the batch's.
+// output_dir: runs/<stem>.json and runs/<stem>.html per run (stem from
+// output_stem()), each run's manifest as a line of runs/manifests.jsonl, then
+// summary.csv, summary.json, index.html and errors.txt, rebuilt from the
+// manifests in the order of relative paths, so the same folder gives the same
+// bytes whatever the thread timing or earlier interruptions (the journal is
+// rewritten in that order at the end); and appends to batch.log (the one file
+// with times in it). Every output file but the journal is written to a
+// temporary name and renamed; the journal is appended a whole line at a time,
+// and a line cut short by a kill is dropped. A run whose manifest shows the
+// same source content hash, method, settings and veq version, and whose
+// outputs are intact, is not redone unless force. One file's failure is its
+// own status, never the batch's.
 //
 // Throws InputError for problems of the batch as a whole: the input folder
 // cannot be listed, the output folder cannot be created or holds files veq
@@ -130,12 +133,12 @@ struct BatchSummary {
 [[nodiscard]] BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks = {});
 
 // Names of the files in output_dir (stable; documented in the README). Each
-// run has a folder runs/<stem>/ (stem from output_stem()) holding its result,
-// report and manifest.
+// run's result and report are runs/<stem>.json and runs/<stem>.html (stem from
+// output_stem(): it ends in "-" and 16 hex digits, so no stem is the journal's name).
 inline constexpr std::string_view kRunsFolder = "runs";
-inline constexpr const char* kResultJson = "result.json";
-inline constexpr const char* kReportHtml = "report.html";
-inline constexpr const char* kManifestJson = "manifest.json";
+inline constexpr std::string_view kResultExtension = ".json";
+inline constexpr std::string_view kReportExtension = ".html";
+inline constexpr std::string_view kManifestJournal = "manifests.jsonl";
 inline constexpr std::string_view kSummaryCsv = "summary.csv";
 inline constexpr std::string_view kReplicatesCsv = "replicates.csv";
 inline constexpr std::string_view kSummaryJson = "summary.json";
@@ -146,6 +149,6 @@ inline constexpr std::string_view kLogFile = "batch.log";
 inline constexpr std::string_view kLockFile = ".veq-batch";
 // Schemas of summary.json and of a run's manifest.
 inline constexpr std::string_view kBatchSchema = "veq.batch/1";
-inline constexpr std::string_view kManifestSchema = "veq.batch-run/1";
+inline constexpr std::string_view kManifestSchema = "veq.batch-run/2";
 
 }  // namespace veq::batch
