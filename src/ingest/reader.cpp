@@ -75,38 +75,67 @@ struct Sniffed {
   double score = 0.0;
 };
 
+// The separators a line holds, one bit each (kWhitespace: a space or a tab).
+unsigned separator_bit(char sep) {
+  switch (sep) {
+    case ',':
+      return 1u;
+    case ';':
+      return 2u;
+    case '\t':
+      return 4u;
+    case '|':
+      return 8u;
+    case detail::kWhitespace:
+      return 16u;
+    default:
+      return 0u;
+  }
+}
+
+unsigned separators_in(std::string_view line) {
+  unsigned m = 0;
+  for (const char c : line) {
+    if (c == ' ' || c == '\t') m |= separator_bit(detail::kWhitespace);
+    if (c == ',' || c == ';' || c == '\t' || c == '|') m |= separator_bit(c);
+  }
+  return m;
+}
+
 Sniffed sniff(const std::vector<std::string>& lines) {
   Sniffed best;
   std::vector<Field> scratch;
+  // Once per line: which separators it holds (0 for a blank line, which no candidate reads).
+  std::vector<unsigned> holds(lines.size(), 0u);
   // A decimal comma needs one written in a numeric field: no line with a comma, no such candidate; and
   // with the comma also the separator, only a quoted field can hold one (the unquoted are split at it).
   bool any_comma = false, any_quoted_comma = false;
-  for (const auto& l : lines) {
-    if (l.find(',') == std::string::npos) continue;
-    any_comma = true;
-    any_quoted_comma = any_quoted_comma || l.find('"') != std::string::npos;
+  for (std::size_t i = 0; i < lines.size(); ++i) {
+    const std::string& l = lines[i];
+    if (l.find(',') != std::string::npos) {
+      any_comma = true;
+      any_quoted_comma = any_quoted_comma || l.find('"') != std::string::npos;
+    }
+    if (!detail::is_blank(l)) holds[i] = separators_in(l) | 32u;  // 32: not blank
   }
+  std::vector<Shape> shapes;  // the numeric rows only: no other line adds to a score
   for (const Candidate c : kCandidates) {
     if (c.dec == ',' && (!any_comma || (c.sep == ',' && !any_quoted_comma))) continue;  // the same verdict, unread
-    std::vector<Shape> shapes;
-    shapes.reserve(lines.size());
+    // A line without the separator is one field, never a numeric row, and a numeric row adds at most 1 to
+    // the score: a candidate whose separator is in no more lines than the best score cannot win.
+    const unsigned bit = separator_bit(c.sep);
+    std::size_t with_sep = 0;
+    for (const unsigned h : holds) with_sep += (h & bit) != 0 ? 1 : 0;
+    if (static_cast<double>(with_sep) <= best.score + 1e-9) continue;
+    shapes.clear();
     bool evidence = false;
     std::map<std::size_t, std::size_t> counts;
-    for (const auto& l : lines) {
-      if (detail::is_blank(l)) continue;
-      // A line without the separator is one field, never a numeric row: not split or parsed (the same shape).
-      const bool has_sep = c.sep == detail::kWhitespace ? l.find_first_of(" \t") != std::string::npos
-                                                        : l.find(c.sep) != std::string::npos;
-      Shape s;
-      if (has_sep) {
-        s = shape_of(l, c, scratch);
-      } else {
-        s.fields = 1;
-      }
-      if (s.numeric_row) {
-        ++counts[s.fields];
-        evidence = evidence || s.comma_decimal;
-      }
+    for (std::size_t i = 0; i < lines.size(); ++i) {
+      if ((holds[i] & bit) == 0) continue;
+      const Shape s = shape_of(lines[i], c, scratch);
+      if (!s.numeric_row) continue;
+      ++counts[s.fields];
+      evidence = evidence || s.comma_decimal;
       shapes.push_back(s);
     }
     if (c.dec == ',' && !evidence) continue;  // a decimal comma needs one written
@@ -117,7 +146,7 @@ Sniffed sniff(const std::vector<std::string>& lines) {
     }
     double score = 0.0;
     for (const auto& s : shapes) {
-      if (s.numeric_row && s.fields == modal) score += static_cast<double>(s.numeric) / static_cast<double>(s.fields);
+      if (s.fields == modal) score += static_cast<double>(s.numeric) / static_cast<double>(s.fields);
     }
     if (score > best.score + 1e-9) best = {c, modal, score};
   }
