@@ -279,7 +279,7 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   std::vector<Task> tasks;
   tasks.reserve(listing.files.size());
   for (auto& rel : listing.files) tasks.push_back({rel, output_stem(rel)});
-  std::vector<std::string> listed_stems;  // sorted: the journal's records of other runs are kept after these
+  std::vector<std::string_view> listed_stems;  // into tasks, sorted: the journal keeps other runs after these
   listed_stems.reserve(tasks.size());
   for (const auto& t : tasks) listed_stems.push_back(t.stem);
   std::sort(listed_stems.begin(), listed_stems.end());
@@ -627,7 +627,7 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
     }
   }
   for (const std::string& stem : journal.stems()) {
-    if (std::binary_search(listed_stems.begin(), listed_stems.end(), stem)) continue;
+    if (std::binary_search(listed_stems.begin(), listed_stems.end(), std::string_view(stem))) continue;
     if (auto record = journal.find(stem)) compacted.write(*record + "\n");
   }
   compacted.commit();

@@ -227,12 +227,16 @@ bool DecodingSource::refill() {
   std::string raw = std::move(m_carry);
   m_carry.clear();
   const std::size_t carried = raw.size();
-  raw.resize(carried + kChunk);
+  // A chunk, or what is left and one byte more (a short read then says the end, as for a full chunk;
+  // a run of a few kB is not read into 64 KiB zeroed first).
+  std::size_t want = kChunk;
+  if (const auto left = m_raw->remaining()) want = std::min(kChunk, *left + 1);
+  raw.resize(carried + want);
   std::size_t got = 0;
   if (!m_over_limit) {
     // Read a full chunk: fread on a pipe may return short.
-    while (got < kChunk) {
-      const std::size_t n = m_raw->read(raw.data() + carried + got, kChunk - got);
+    while (got < want) {
+      const std::size_t n = m_raw->read(raw.data() + carried + got, want - got);
       if (n == 0) break;
       got += n;
     }
@@ -244,7 +248,7 @@ bool DecodingSource::refill() {
     m_raw_eof = true;
     return false;
   }
-  const bool last = got < kChunk;
+  const bool last = got < want;
   if (last) m_raw_eof = true;
   std::string_view view(raw);
   if (!m_started) {

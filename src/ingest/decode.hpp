@@ -5,6 +5,7 @@
 #include <cstdint>
 #include <cstdio>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -23,6 +24,8 @@ class RawSource {
   virtual ~RawSource() = default;
   // Reads up to size bytes; returns 0 at end of input. Throws on read errors.
   virtual std::size_t read(char* buffer, std::size_t size) = 0;
+  // The bytes left, when the source knows (a buffer in memory): a chunk need not be larger.
+  [[nodiscard]] virtual std::optional<std::size_t> remaining() const { return std::nullopt; }
 };
 
 class FileSource final : public RawSource {
@@ -39,6 +42,7 @@ class MemorySource final : public RawSource {
  public:
   explicit MemorySource(std::string_view data) : m_data(data) {}
   std::size_t read(char* buffer, std::size_t size) override;
+  [[nodiscard]] std::optional<std::size_t> remaining() const override { return m_data.size(); }
 
  private:
   std::string_view m_data;
