@@ -200,7 +200,13 @@ Outcome process(const Context& cx, const Task& t) {
       io::write_file_atomically(cx.runs_dir / name, html_text, true, io::Sync::deferred);
       outputs["html"] = {{"name", name}, {"xxh3", hash_hex(hash64(html_text))}};
     }
-    if (json_text.empty()) remove_stale_outputs(cx, t);
+    if (json_text.empty()) {
+      remove_stale_outputs(cx, t);
+    } else if (html_text.empty()) {
+      // Redone without HTML (--no-html): an earlier report would contradict the new result.
+      std::error_code ec;
+      fs::remove(cx.runs_dir / report_name(t.stem), ec);
+    }
     m["outputs"] = outputs;
     // Names and metadata may hold bytes that are not UTF-8: replaced (U+FFFD) in JSON, never a failure.
     // One line (the dump escapes newlines in strings), after the files it lists.
@@ -272,8 +278,10 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   Journal journal(runs_dir / std::string(kManifestJournal));
   if (journal.cut_short()) log.line("the manifest journal ended in a line cut short (a killed batch): removed");
   if (journal.dropped() > 0) {
-    log.line(fmt::format("{} unusable line(s) in the manifest journal ignored; their runs are done again",
-                         journal.dropped()));
+    log.line(
+        fmt::format("{} unusable line(s) in the manifest journal ignored (a run with no usable line is "
+                    "done again)",
+                    journal.dropped()));
   }
 
   std::vector<Task> tasks;
@@ -626,9 +634,22 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
                                *options.max_rsd_percent));
     }
   }
+  // A run no longer listed keeps its line while its result files are there (the file may come back, or
+  // belong to another shard written into this folder); a line naming no files, or files since removed, goes.
+  std::size_t unlisted_dropped = 0;
   for (const std::string& stem : journal.stems()) {
     if (std::binary_search(listed_stems.begin(), listed_stems.end(), std::string_view(stem))) continue;
-    if (auto record = journal.find(stem)) compacted.write(*record + "\n");
+    const std::optional<std::string> record = journal.find(stem);
+    const std::optional<ordered_json> m = parsed(record);
+    if (m && keeps_unlisted(*m, runs_dir, stem)) {
+      compacted.write(*record + "\n");
+    } else {
+      ++unlisted_dropped;
+    }
+  }
+  if (unlisted_dropped > 0) {
+    log.line(fmt::format("{} manifest line(s) of runs no longer listed dropped: their result files are gone",
+                         unlisted_dropped));
   }
   compacted.commit();
   json.write(tasks.empty() ? "],\n  \"replicates\": " : "\n  ],\n  \"replicates\": ");

@@ -220,6 +220,20 @@ std::string report_name(const std::string& stem) {
   return stem + std::string(kReportExtension);
 }
 
+bool keeps_unlisted(const ordered_json& m, const fs::path& runs_dir, const std::string& stem) {
+  auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
+  if (str("schema") != kManifestSchema || str("stem") != stem) return false;
+  if (!m.contains("outputs") || !m["outputs"].is_object() || m["outputs"].empty()) return false;
+  for (const auto& [kind, o] : m["outputs"].items()) {
+    (void)kind;
+    if (!o.is_object() || !o.contains("name") || !o["name"].is_string()) return false;
+    const std::string name = o["name"].get<std::string>();
+    std::error_code ec;
+    if ((name != result_name(stem) && name != report_name(stem)) || !fs::exists(runs_dir / name, ec)) return false;
+  }
+  return true;
+}
+
 bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& runs_dir, const std::string& stem) {
   auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
   if (str("schema") != kManifestSchema || str("stem") != stem || str("veq_version") != version() ||

@@ -55,6 +55,12 @@ struct ManifestKey {
                                const std::filesystem::path& runs_dir,
                                const std::string& stem);
 
+// Whether the record of a run no longer listed is kept in the journal: it is this version's manifest of
+// that stem and names result files that are all still in runs_dir (none named: not kept).
+[[nodiscard]] bool keeps_unlisted(const ordered_json& manifest,
+                                  const std::filesystem::path& runs_dir,
+                                  const std::string& stem);
+
 // The names of a run's result and report in runs/.
 [[nodiscard]] std::string result_name(const std::string& stem);
 [[nodiscard]] std::string report_name(const std::string& stem);

@@ -153,9 +153,11 @@ void add_batch(CLI::App& app, Action& action) {
                          s.failed());
       out << fmt::format("  processed {}, kept unchanged {}, in {:.2f} s\n", s.processed, s.resumed, s.elapsed_s);
       if (s.replaced > 0) {
-        out << fmt::format("  {} earlier result(s) replaced: their file, method, options or veq version changed{}\n",
-                           s.replaced,
-                           st->force ? " (or --force)" : "");
+        out << fmt::format(
+            "  {} earlier result(s) replaced: their file, method, options or veq version changed, or their "
+            "result files were damaged or missing{}\n",
+            s.replaced,
+            st->force ? " (or --force)" : "");
       }
       if (s.failed() > 0) out << "  failures and reasons: " << (bo.output_dir / batch::kErrorsTxt).string() << "\n";
       out << "  index: " << s.index_html.string() << "\n";

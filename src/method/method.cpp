@@ -254,6 +254,12 @@ Method parse_method(std::string_view text, const std::string& name, const std::f
         m.titrant_conc_u_mol_L = rec.uncertainty_mol_L;
         if (m.titrant_name.empty()) m.titrant_name = rec.titrant;
         m.titer_file = p.string();
+        // The titer file is part of the method (its bytes, as the method file's): a restandardised
+        // titrant redoes a batch's runs.
+        std::ifstream tf(p, std::ios::binary);
+        std::ostringstream bytes;
+        bytes << tf.rdbuf();
+        m.identity += "+titer:" + hash_hex(bytes.str());
       } catch (const InputError& e) {
         t->fail(t->line_of("titer_file"), "'titrant.titer_file': " + std::string(e.what()), e.hint());
       }

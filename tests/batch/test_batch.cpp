@@ -6,6 +6,7 @@
 
 #include <atomic>
 #include <catch2/catch.hpp>
+#include <fstream>
 #include <nlohmann/json.hpp>
 #include <set>
 
@@ -410,6 +411,18 @@ TEST_CASE("the manifest journal: a line cut short is dropped, the latest record 
   CHECK(three.processed == 0);
   CHECK_FALSE(fs::exists(out / "runs" / "old_layout.csv-0123456789abcdef"));
   CHECK(outputs(out) == clean);
+  // Gone again, and its result files removed too: its line goes (as does a line naming no files).
+  fs::remove(in / gone);
+  fs::remove(out / "runs" / (veq::batch::output_stem(gone) + ".json"));
+  fs::remove(out / "runs" / (veq::batch::output_stem(gone) + ".html"));
+  {
+    std::ofstream(out / "runs" / "manifests.jsonl", std::ios::app) << R"({"stem":"made-up","schema":"x"})"
+                                                                   << "\n";
+  }
+  (void)veq::batch::run_batch(options_for(in, out));
+  const auto left = lines_of(slurp(out / "runs" / "manifests.jsonl"));
+  CHECK(left.size() == 2);
+  for (const auto& l : left) CHECK(Journal::stem_of(l) != veq::batch::output_stem(gone));
 }
 
 TEST_CASE("exceptions inside a run become its status: input errors and internal errors", "[batch]") {

@@ -1,12 +1,10 @@
 // SPDX-License-Identifier: MIT
 // Method files through the command line: templates, results in JSON, titer files, replicates.
 #include <catch2/catch.hpp>
-
 #include <filesystem>
 #include <fstream>
-#include <sstream>
-
 #include <nlohmann/json.hpp>
+#include <sstream>
 
 #include "cli/cli.hpp"
 #include "support/approx.hpp"
@@ -90,7 +88,8 @@ TEST_CASE("standardisation writes a titer file that a later method uses", "[cli]
   const fs::path assay = dir() / "assay.toml";
   {
     std::ofstream m(assay);
-    m << "name = \"assay\"\n[sample]\nvolume_mL = 20\n[titrant]\ntiter_file = \"titer.toml\"\n[[result]]\nunit = \"mol/L\"\n";
+    m << "name = \"assay\"\n[sample]\nvolume_mL = 20\n[titrant]\ntiter_file = \"titer.toml\"\n[[result]]\nunit = "
+         "\"mol/L\"\n";
   }
   veq::test::Sample s;
   s.V0_mL = 20.0;
@@ -106,6 +105,32 @@ TEST_CASE("standardisation writes a titer file that a later method uses", "[cli]
   REQUIRE(a.code == 0);
   // Stoichiometry: 0.0937 mol/L back from the standardised titrant.
   CHECK(nlohmann::json::parse(a.out)["result"]["value"].get<double>() == veq::test::close(0.0937, 2e-3));
+
+  // A batch with the method, then the titrant restandardised (the titer file rewritten, the method file
+  // not): the run is done again with the new concentration, not kept (the result scales with Ct).
+  const fs::path in = dir() / "titer_batch_in", out = dir() / "titer_batch_out";
+  fs::remove_all(in);
+  fs::remove_all(out);
+  fs::create_directories(in);
+  fs::copy_file(hcl, in / "hcl.csv");
+  const std::vector<std::string> batch = {"batch", in.string(), "--out", out.string(), "--method", assay.string()};
+  const Out b1 = veq_cli(batch);
+  INFO(b1.err);
+  REQUIRE(b1.code == 0);
+  CHECK(b1.out.find("processed 1, kept unchanged 0") != std::string::npos);
+  CHECK(veq_cli(batch).out.find("processed 0, kept unchanged 1") != std::string::npos);
+  std::stringstream text;
+  text << std::ifstream(titer).rdbuf();
+  std::string t = text.str();
+  const std::size_t at = t.find("concentration_mol_L = ");
+  REQUIRE(at != std::string::npos);
+  t.replace(at, t.find('\n', at) - at, "concentration_mol_L = 0.1");
+  std::ofstream(titer, std::ios::trunc) << t;
+  const Out b3 = veq_cli(batch);
+  INFO(b3.err);
+  CHECK(b3.out.find("processed 1, kept unchanged 0") != std::string::npos);
+  const auto summary = nlohmann::json::parse(std::ifstream(out / "summary.json"));
+  CHECK(summary["runs"][0]["results"][0]["value"].get<double>() == veq::test::close(0.0937 * 0.1 / 0.0987, 2e-3));
 }
 
 TEST_CASE("several runs of one sample: replicate statistics", "[cli][method]") {
@@ -150,9 +175,10 @@ TEST_CASE("a result out of specification fails the run (exit 1); method/run conf
   const fs::path run = dir() / "spec.csv";
   std::ofstream(run) << f.str();
   const fs::path m = dir() / "spec.toml";
-  std::ofstream(m) << "name = \"spec\"\n[analyte]\nmolar_mass_g_mol = 36.46\n[sample]\nvolume_mL = 20\n"
-                      "[titrant]\nname = \"NaOH\"\nconcentration_mol_L = 0.1\n[[result]]\nname = \"HCl\"\nunit = \"g/L\"\n"
-                      "spec_high = 3.0\n";
+  std::ofstream(m)
+      << "name = \"spec\"\n[analyte]\nmolar_mass_g_mol = 36.46\n[sample]\nvolume_mL = 20\n"
+         "[titrant]\nname = \"NaOH\"\nconcentration_mol_L = 0.1\n[[result]]\nname = \"HCl\"\nunit = \"g/L\"\n"
+         "spec_high = 3.0\n";
   const Out o = veq_cli({"analyze", run.string(), "--method", m.string(), "--json", "-"});
   CHECK(o.code == veq::cli::kExitFailed);
   const auto j = nlohmann::json::parse(o.out);
