@@ -116,16 +116,10 @@ struct Context {
   Journal& journal;
 };
 
-void remove_stale_outputs(const Context& cx, const Task& t) {
-  std::error_code ec;
-  fs::remove(cx.runs_dir / result_name(t.stem), ec);
-  fs::remove(cx.runs_dir / report_name(t.stem), ec);
-}
-
-// A record of the journal as a JSON object; nullopt when it does not parse as one.
-std::optional<ordered_json> parsed(const std::optional<std::string>& record) {
-  if (!record) return std::nullopt;
-  ordered_json j = ordered_json::parse(*record, nullptr, false);
+// A record of the journal as a JSON object; nullopt when it is empty or does not parse as one.
+std::optional<ordered_json> parsed(std::string_view record) {
+  if (record.empty()) return std::nullopt;
+  ordered_json j = ordered_json::parse(record, nullptr, false);
   if (j.is_discarded() || !j.is_object()) return std::nullopt;
   return j;
 }
@@ -143,7 +137,7 @@ Outcome process(const Context& cx, const Task& t) {
   }
   const std::string source_hash = src.state == Source::State::ok ? hash_hex(hash64(src.bytes)) : std::string();
 
-  const std::optional<ordered_json> earlier = parsed(cx.journal.find(t.stem));
+  const std::optional<ordered_json> earlier = parsed(cx.journal.find(t.stem).value_or(std::string()));
   const ManifestKey key{t.rel, source_hash, src.size, cx.opt.method_identity, cx.settings, cx.opt.html_reports};
   if (earlier && !cx.opt.force && still_valid(*earlier, key, cx.runs_dir, t.stem)) {
     out.status = *status_from_string((*earlier)["row"]["status"].get<std::string>());
@@ -200,13 +194,11 @@ Outcome process(const Context& cx, const Task& t) {
       io::write_file_atomically(cx.runs_dir / name, html_text, true, io::Sync::deferred);
       outputs["html"] = {{"name", name}, {"xxh3", hash_hex(hash64(html_text))}};
     }
-    if (json_text.empty()) {
-      remove_stale_outputs(cx, t);
-    } else if (html_text.empty()) {
-      // Redone without HTML (--no-html): an earlier report would contradict the new result.
-      std::error_code ec;
-      fs::remove(cx.runs_dir / report_name(t.stem), ec);
-    }
+    // An earlier result or report of a run redone without one (it failed now, or --no-html) would
+    // contradict the new manifest.
+    std::error_code ec;
+    if (json_text.empty()) fs::remove(cx.runs_dir / result_name(t.stem), ec);
+    if (html_text.empty()) fs::remove(cx.runs_dir / report_name(t.stem), ec);
     m["outputs"] = outputs;
     // Names and metadata may hold bytes that are not UTF-8: replaced (U+FFFD) in JSON, never a failure.
     // One line (the dump escapes newlines in strings), after the files it lists.
@@ -454,11 +446,7 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
     // An earlier batch's record of a run not redone this time (missing, stopped, failed inside) stays.
     if (auto record = journal.find(t.stem)) p.record = std::move(*record);
     try {
-      std::optional<ordered_json> manifest;
-      if (o.manifest && !p.record.empty()) {
-        ordered_json j = ordered_json::parse(p.record, nullptr, false);
-        if (!j.is_discarded() && j.is_object()) manifest = std::move(j);
-      }
+      const std::optional<ordered_json> manifest = o.manifest ? parsed(p.record) : std::nullopt;
       ordered_json row;
       if (manifest && manifest->contains("row") && (*manifest)["row"].is_object()) {
         row = (*manifest)["row"];
@@ -640,7 +628,7 @@ BatchSummary run_batch(const BatchOptions& options, const BatchHooks& hooks) {
   for (const std::string& stem : journal.stems()) {
     if (std::binary_search(listed_stems.begin(), listed_stems.end(), std::string_view(stem))) continue;
     const std::optional<std::string> record = journal.find(stem);
-    const std::optional<ordered_json> m = parsed(record);
+    const std::optional<ordered_json> m = parsed(record.value_or(std::string()));
     if (m && keeps_unlisted(*m, runs_dir, stem)) {
       compacted.write(*record + "\n");
     } else {
