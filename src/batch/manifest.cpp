@@ -220,22 +220,46 @@ std::string report_name(const std::string& stem) {
   return stem + std::string(kReportExtension);
 }
 
-bool keeps_unlisted(const ordered_json& m, const fs::path& runs_dir, const std::string& stem) {
-  auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
-  if (str("schema") != kManifestSchema || str("stem") != stem) return false;
-  if (!m.contains("outputs") || !m["outputs"].is_object() || m["outputs"].empty()) return false;
+namespace {
+
+std::string string_field(const ordered_json& m, const char* key) {
+  return m.contains(key) && m[key].is_string() ? m[key].get<std::string>() : std::string();
+}
+
+struct ListedOutput {
+  std::string name;
+  std::string xxh3;  // empty when not recorded
+};
+
+// The outputs a manifest lists, when they are well formed and are the stem's files; nullopt otherwise.
+std::optional<std::vector<ListedOutput>> listed_outputs(const ordered_json& m, const std::string& stem) {
+  if (!m.contains("outputs") || !m["outputs"].is_object()) return std::nullopt;
+  std::vector<ListedOutput> out;
   for (const auto& [kind, o] : m["outputs"].items()) {
     (void)kind;
-    if (!o.is_object() || !o.contains("name") || !o["name"].is_string()) return false;
-    const std::string name = o["name"].get<std::string>();
+    if (!o.is_object() || !o.contains("name") || !o["name"].is_string()) return std::nullopt;
+    ListedOutput l{o["name"].get<std::string>(), string_field(o, "xxh3")};
+    if (l.name != result_name(stem) && l.name != report_name(stem)) return std::nullopt;
+    out.push_back(std::move(l));
+  }
+  return out;
+}
+
+}  // namespace
+
+bool keeps_unlisted(const ordered_json& m, const fs::path& runs_dir, const std::string& stem) {
+  if (string_field(m, "schema") != kManifestSchema || string_field(m, "stem") != stem) return false;
+  const auto outputs = listed_outputs(m, stem);
+  if (!outputs || outputs->empty()) return false;
+  for (const auto& o : *outputs) {
     std::error_code ec;
-    if ((name != result_name(stem) && name != report_name(stem)) || !fs::exists(runs_dir / name, ec)) return false;
+    if (!fs::exists(runs_dir / o.name, ec)) return false;
   }
   return true;
 }
 
 bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& runs_dir, const std::string& stem) {
-  auto str = [&](const char* k) { return m.contains(k) && m[k].is_string() ? m[k].get<std::string>() : std::string(); };
+  const auto str = [&](const char* k) { return string_field(m, k); };
   if (str("schema") != kManifestSchema || str("stem") != stem || str("veq_version") != version() ||
       str("file") != as_written(key.file)) {
     return false;
@@ -255,13 +279,10 @@ bool still_valid(const ordered_json& m, const ManifestKey& key, const fs::path& 
       !status_from_string(m["row"]["status"].is_string() ? m["row"]["status"].get<std::string>() : "")) {
     return false;
   }
-  if (!m.contains("outputs") || !m["outputs"].is_object()) return false;
-  for (const auto& [kind, o] : m["outputs"].items()) {
-    (void)kind;
-    if (!o.is_object() || !o.contains("name") || !o["name"].is_string() || !o.contains("xxh3")) return false;
-    const std::string name = o["name"].get<std::string>();
-    if (name != result_name(stem) && name != report_name(stem)) return false;
-    if (hash_of_file(runs_dir / name) != o["xxh3"].get<std::string>()) return false;
+  const auto outputs = listed_outputs(m, stem);
+  if (!outputs) return false;
+  for (const auto& o : *outputs) {
+    if (o.xxh3.empty() || hash_of_file(runs_dir / o.name) != o.xxh3) return false;
   }
   return true;
 }
