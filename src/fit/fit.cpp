@@ -666,6 +666,43 @@ class AbandonCallback : public ceres::IterationCallback {
   double m_best;
 };
 
+// Stops a runner-up's refit once it has settled behind the winner: from the third iteration on, at a
+// successful step that leaves it more than 10 units of the criterion behind, falling less than the
+// successful step before it did (by a ratio r < 0.9), when the geometric rest of those falls, twice over
+// (2 f r / (1 - r) for a fall f), would still leave it 10 units behind. Near its minimum a trust-region
+// solve's falls shrink from step to step; after rejected steps they grow again as the region widens, which
+// the ratio sees. The criterion is that of the attempt's score, on sum rho = 2 cost.
+class SettleCallback : public ceres::IterationCallback {
+ public:
+  SettleCallback(int readings, int free, Criterion criterion, double winner)
+      : m_n(readings), m_k(free + 1), m_criterion(criterion), m_winner(winner) {}
+  ceres::CallbackReturnType operator()(const ceres::IterationSummary& s) override {
+    if (s.iteration == 0 || !s.step_is_successful || !(s.cost > 0.0) || m_n <= m_k + 1) return ceres::SOLVER_CONTINUE;
+    const double now = score(2.0 * s.cost);
+    const double fall = score(2.0 * (s.cost + std::max(s.cost_change, 0.0))) - now;
+    const double previous = m_previous_fall;
+    m_previous_fall = fall;
+    if (s.iteration < 3 || !(previous > 0.0)) return ceres::SOLVER_CONTINUE;
+    const double r = fall / previous;
+    const double behind = now - m_winner - 10.0;
+    if (behind > 0.0 && r < 0.9 && 2.0 * fall * r / (1.0 - r) < behind) {
+      settled = true;
+      return ceres::SOLVER_TERMINATE_SUCCESSFULLY;
+    }
+    return ceres::SOLVER_CONTINUE;
+  }
+  bool settled = false;
+
+ private:
+  [[nodiscard]] double score(double rss) const {
+    return m_criterion == Criterion::bic ? bic(rss, m_n, m_k) : aicc(rss, m_n, m_k);
+  }
+  int m_n, m_k;
+  Criterion m_criterion;
+  double m_winner;
+  double m_previous_fall = 0.0;
+};
+
 // Limits of one attempt.
 struct AttemptLimits {
   int max_iterations = 100;  // per stage
@@ -674,6 +711,8 @@ struct AttemptLimits {
       std::numeric_limits<double>::infinity();  // best least-squares cost so far [signal unit^2]
   bool least_squares_stage = true;  // false: straight to the robust loss (a start that is already the solution)
   bool evaluate_only = false;       // no iterations: scored where it starts (an upper bound of a fit from there)
+  // A runner-up's refit: stopped once settled more than 10 units behind this score (SettleCallback).
+  std::optional<double> settle_behind_score;
 };
 
 // The loss as Ceres defines it: rho(s) of s = r^2 with rho' and rho'' (ceres::HuberLoss, ceres::CauchyLoss).
@@ -780,8 +819,14 @@ void solve_attempt(Attempt& a, const Prepared& p, const FitOptions& o, double de
     }
     if (needed && a.report.status != FitStatus::failed) {
       const int before = lim.least_squares_stage ? a.report.iterations : 0;
-      a.report = solve_with(loss.get(), nullptr);
+      std::optional<SettleCallback> settle;
+      if (lim.settle_behind_score) settle.emplace(n, k, o.criterion, *lim.settle_behind_score);
+      a.report = solve_with(loss.get(), settle ? &*settle : nullptr);
       a.report.iterations += before;
+      if (settle && settle->settled) {
+        a.report.status = FitStatus::stopped;
+        a.report.termination = "NO_CONVERGENCE: stopped once settled behind the winner";
+      }
     }
   }
   if (a.abandoned) a.report.status = FitStatus::stopped;
@@ -1255,6 +1300,59 @@ bool at_bound(const Attempt& a) {
   return false;
 }
 
+// The least spacing of two titrated steps that the curve tells from one step: the largest spacing of
+// equal, independent sites, log10 4 (two sites), plus 0.3. For n such sites of one constant k the
+// macroscopic constants are K_j = k (n - j + 1) / j, so pKa_(j+1) - pKa_j = log10[(n - j + 1)(j + 1) /
+// (j (n - j))] (log10 4 for two sites, log10 3 for three, less for more): the mean number of protons bound
+// is then n h / (h + k), and in an ideal solution the n steps at c / n titrate exactly as one step at c (the
+// statistical factor of polyprotic acids; e.g. Adams, J. Am. Chem. Soc. 38 (1916) 1503, from memory). One
+// spacing for all: a triprotic candidate whose third step lies near the readings' end titrates its first
+// two as a pair. Just above log10 4 a diprotic candidate differs from one step by a few hundredths of a pH
+// (0.2 above it: 0.07 pH at most, "Model selection" in DEVELOPERS.md), as much as activity or junction
+// effects alter a curve, so it fits those and halves or thirds the concentration.
+constexpr double kMergedSpacing = 0.60206 + 0.3;
+
+// Whether two titrated steps of a candidate are merged (closer than kMergedSpacing).
+bool merged_steps(const Attempt& a, bool base_titrant) {
+  const ModelShape& s = a.layout.shape;
+  if (s.weak_steps < 2 || a.u.empty()) return false;
+  const std::vector<int> steps = titrated_steps(s, base_titrant);
+  if (steps.size() < 2) return false;
+  const chem::Model<double> m = a.layout.model(a.u.data());
+  if (m.protolytes.empty()) return false;
+  const auto& pKa = m.protolytes.front().pKa;
+  const int lo = *std::min_element(steps.begin(), steps.end());
+  const int hi = *std::max_element(steps.begin(), steps.end());
+  for (int j = lo; j < hi; ++j) {
+    const double gap = pKa[static_cast<std::size_t>(j + 1)] - pKa[static_cast<std::size_t>(j)];
+    if (gap < kMergedSpacing) return true;
+  }
+  return false;
+}
+
+// Whether a titrated step of a candidate is out of the readings' reach: its pKa more than 2 below the
+// lowest fitted pH or more than 2 above the highest, so that at every reading 99 % of the step is in one
+// form (Henderson-Hasselbalch: the ratio of the two forms is 10^(pH - pKa)). To the curve such a step is a
+// strong acid or base, or no step at all, which a simpler candidate says with fewer parameters.
+bool step_out_of_reach(const Attempt& a, bool base_titrant) {
+  const ModelShape& s = a.layout.shape;
+  if (s.weak_steps < 1 || a.u.empty() || !a.warm || a.warm->state.empty()) return false;
+  double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+  for (const chem::Equilibrium& e : a.warm->state) {
+    lo = std::min(lo, e.pH());
+    hi = std::max(hi, e.pH());
+  }
+  if (!std::isfinite(lo) || !std::isfinite(hi)) return false;
+  const chem::Model<double> m = a.layout.model(a.u.data());
+  if (m.protolytes.empty()) return false;
+  const auto& pKa = m.protolytes.front().pKa;
+  for (int j : titrated_steps(s, base_titrant)) {
+    const double k = pKa[static_cast<std::size_t>(j)];
+    if (k < lo - 2.0 || k > hi + 2.0) return true;
+  }
+  return false;
+}
+
 // The layout of shape started from a fitted simpler candidate: shared parameters at its values, the added
 // top pKa beyond the readings (as for a step the readings do not reach).
 Layout seeded_layout(const ModelShape& shape, const Attempt& parent, const Prepared& p, const FitOptions& o) {
@@ -1425,13 +1523,20 @@ FitResult fit_titration(const Curve& curve,
   });
   // The best score wins, except that a candidate with a free parameter on its bound (a component driven
   // to nothing, a pKa pushed out of reach) gives way to one without: the simpler model then says the same.
+  // So does one with two titrated steps merged (merged_steps): to the curve they are one step, and such a
+  // candidate wins only by fitting what the model leaves out (activity, the junction, a settling first
+  // reading), at a half or a third of the concentration. And one with a titrated step out of the readings'
+  // reach (step_out_of_reach): the simpler model without that step's pKa says the same.
   // The best by that rule, leaving out one index (none: size()); size() when there is none.
+  auto fine = [&](const Attempt& q) {
+    return !at_bound(q) && !merged_steps(q, p.base_titrant) && !step_out_of_reach(q, p.base_titrant);
+  };
   auto best_by_rule = [&](std::size_t except) {
     std::size_t best = best_per_shape.size();
     for (const bool allow_bound : {false, true}) {
       for (std::size_t i = 0; i < best_per_shape.size(); ++i) {
         const Attempt& q = best_per_shape[i];
-        if (i == except || !q.ok || q.abandoned || (!allow_bound && at_bound(q))) continue;
+        if (i == except || !q.ok || q.abandoned || (!allow_bound && !fine(q))) continue;
         if (best == best_per_shape.size() || q.score < best_per_shape[best].score) best = i;
       }
       if (best != best_per_shape.size()) break;
@@ -1492,8 +1597,12 @@ FitResult fit_titration(const Curve& curve,
       for (ParamDef& d : L.params) {
         if (d.index >= 0) d.initial = std::clamp(q.layout.value(d, q.u.data()), d.lower, d.upper);
       }
-      // The runner-up first gets 3 iterations: its score can only fall with more, so one still 10 units
-      // behind the winner stays behind (then it is not refined); a closer one gets the full candidate limits.
+      // The runner-up's score can only fall with more iterations, so its refit stops early only once it has
+      // settled behind the winner: after 3 iterations, more than 10 units behind, and its last step's fall
+      // in score, five times over, short of the rest of the gap (SettleCallback). It otherwise gets the
+      // winner's iteration limit, since it may take the lead. (Stopping every runner-up 10 units behind
+      // after 3 iterations let a weak acid restarted far from its all-readings solution, its trust region
+      // still shrinking, lose to an over-parameterised model by 200 units.)
       if (i == second && best_per_shape[chosen].ok) {
         // A runner-up that converged on the screening's n readings and still trailed by more than n ln 8
         // there (its cost 8 times the winner's, the bound that abandons a candidate) is only scored on all
@@ -1510,21 +1619,14 @@ FitResult fit_titration(const Curve& curve,
             continue;
           }
         }
-        AttemptLimits brief = again;
-        brief.max_iterations = std::min(again.max_iterations, 3);
-        Attempt quick = run_attempt(L, p, o, delta, brief);
-        if (quick.ok && quick.score > best_per_shape[chosen].score + 10.0) {
-          rescore(quick);
-          q = std::move(quick);
-          continue;
-        }
-        if (quick.ok) {
-          // Close enough to be refined: on from where the three iterations stopped.
-          const int done = quick.report.iterations;
-          solve_attempt(quick, p, o, delta, again);
-          quick.report.iterations += done;
-          rescore(quick);
-          q = std::move(quick);
+        // Refitted with the winner's iteration limit, stopped once it has settled behind the winner.
+        AttemptLimits on = again;
+        on.max_iterations = o.max_iterations;
+        on.settle_behind_score = best_per_shape[chosen].score;
+        Attempt refit = run_attempt(L, p, o, delta, on);
+        if (refit.ok) {
+          rescore(refit);
+          q = std::move(refit);
           continue;
         }
       }
@@ -1543,7 +1645,7 @@ FitResult fit_titration(const Curve& curve,
     if (second != best_per_shape.size()) {
       const Attempt& a = best_per_shape[chosen];
       const Attempt& b = best_per_shape[second];
-      const bool a_fine = a.ok && !at_bound(a), b_fine = b.ok && !at_bound(b);
+      const bool a_fine = a.ok && fine(a), b_fine = b.ok && fine(b);
       if ((b_fine && !a_fine) || (b.ok && b_fine == a_fine && b.score < a.score) || (!a.ok && b.ok)) chosen = second;
     }
     polished = chosen == screened_winner;
@@ -1595,9 +1697,25 @@ FitResult fit_titration(const Curve& curve,
     }
   }
   FitSummary summary = summarise(win, p, o, delta, endpoints);
+  // Why the rule passes a candidate over, whatever its score; the chosen model first, the others as sorted.
+  for (ModelScore& c : result.candidates) {
+    for (const Attempt& q : best_per_shape) {
+      if (!q.ok || q.layout.shape.name != c.model) continue;
+      c.set_aside = at_bound(q)                            ? "parameter_at_bound"
+                    : merged_steps(q, p.base_titrant)      ? "steps_merged"
+                    : step_out_of_reach(q, p.base_titrant) ? "step_out_of_reach"
+                                                           : "";
+    }
+  }
+  std::stable_partition(result.candidates.begin(), result.candidates.end(), [&](const ModelScore& c) {
+    return c.model == win.layout.shape.name;
+  });
+  // The runner-up: the next on the same readings. Within 2 units and not set aside, the choice is ambiguous
+  // (one set aside with a better score is reported as such: the rule, not the score, decided).
   if (result.candidates.size() > 1 && result.candidates[1].readings == result.candidates[0].readings) {
     result.runner_up = result.candidates[1];
-    if (result.candidates[1].score - result.candidates[0].score < 2.0) summary.flags.emplace_back(kFlagAmbiguous);
+    if (result.candidates[1].set_aside.empty() && result.candidates[1].score - result.candidates[0].score < 2.0)
+      summary.flags.emplace_back(kFlagAmbiguous);
   }
   result.status = summary.status;
   result.best = std::move(summary);

@@ -42,6 +42,13 @@ const fit::FittedEquivalence* matched(const Analysis& a, int endpoint_index) {
 }  // namespace
 
 // Decimals that show a value to two significant digits of its standard error.
+std::string set_aside_text(const std::string& set_aside) {
+  if (set_aside == "parameter_at_bound") return ", set aside: a parameter on its bound";
+  if (set_aside == "steps_merged") return ", set aside: two titrated steps too close to tell from one";
+  if (set_aside == "step_out_of_reach") return ", set aside: a step's pKa beyond the readings' pH";
+  return set_aside.empty() ? std::string() : ", set aside: " + set_aside;
+}
+
 int parameter_decimals(const std::optional<double>& se, double value) {
   if (se && *se > 0.0 && std::isfinite(*se))
     return std::clamp(1 - static_cast<int>(std::floor(std::log10(*se))), 0, 10);
@@ -123,6 +130,7 @@ ordered_json fit_json(const Analysis& a) {
     ordered_json ru;
     ru["model"] = r.runner_up->model;
     ru["score"] = rounded(r.runner_up->score, 3);
+    ru["set_aside"] = r.runner_up->set_aside.empty() ? ordered_json(nullptr) : ordered_json(r.runner_up->set_aside);
     j["runner_up"] = std::move(ru);
   } else {
     j["runner_up"] = nullptr;
@@ -134,6 +142,7 @@ ordered_json fit_json(const Analysis& a) {
     cj["score"] = rounded(c.score, 3);
     cj["free_parameters"] = c.free_parameters;
     cj["readings"] = c.readings;
+    cj["set_aside"] = c.set_aside.empty() ? ordered_json(nullptr) : ordered_json(c.set_aside);
     cands.push_back(std::move(cj));
   }
   j["candidates"] = std::move(cands);
@@ -182,8 +191,11 @@ std::string fit_block(const Analysis& a) {
                                 b.iterations,
                                 b.status == fit::FitStatus::converged ? "" : " (not converged)");
   if (r.runner_up) {
-    out += fmt::format(
-        "; runner-up {} ({} {:+.1f})", r.runner_up->model, fit::to_string(r.criterion), r.runner_up->score - b.score);
+    out += fmt::format("; runner-up {} ({} {:+.1f}{})",
+                       r.runner_up->model,
+                       fit::to_string(r.criterion),
+                       r.runner_up->score - b.score,
+                       set_aside_text(r.runner_up->set_aside));
   }
   out += "\n     ";
   bool first = true;

@@ -14,6 +14,9 @@ namespace veq::report::detail {
 // digits of the value when there is none).
 [[nodiscard]] int parameter_decimals(const std::optional<double>& std_error, double value);
 
+// ", set aside: ..." for a candidate model selection passed over (fit::ModelScore::set_aside), or empty.
+[[nodiscard]] std::string set_aside_text(const std::string& set_aside);
+
 // The "fit" object of the run's JSON (README, "Result files"). Always
 // present; a fit that was not run or failed says so in status and flags.
 [[nodiscard]] nlohmann::ordered_json fit_json(const Analysis& analysis);

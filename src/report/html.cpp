@@ -456,10 +456,11 @@ std::string section_fit(const Analysis& a, const HtmlOptions& o) {
       b.iterations,
       esc(fit::to_string(b.status)));
   if (r.runner_up) {
-    s += fmt::format("; runner-up {} ({} {:+.1f})",
+    s += fmt::format("; runner-up {} ({} {:+.1f}{})",
                      esc(r.runner_up->model),
                      esc(fit::to_string(r.criterion)),
-                     r.runner_up->score - b.score);
+                     r.runner_up->score - b.score,
+                     esc(detail::set_aside_text(r.runner_up->set_aside)));
   }
   s += r.usable() ? ". Used beside the endpoints.</p>\n"
                   : ". <strong>Not used</strong> beside the endpoints (see the flags).</p>\n";

@@ -355,3 +355,25 @@ TEST_CASE("closed-form curve by pH lies on the solved curve", "[chem][equilibriu
     }
   }
 }
+
+TEST_CASE("equal, independent sites titrate as one step: pKa spaced by the statistical factor", "[chem][equilibrium]") {
+  // n equal, independent sites of one constant k have the macroscopic constants K_j = k (n - j + 1) / j
+  // (the statistical factor of polyprotic acids; e.g. Adams, J. Am. Chem. Soc. 38 (1916) 1503, from memory):
+  // two sites at pk -/+ log10 2, three at pk - log10 3, pk, pk + log10 3. In an ideal solution the protons
+  // they bind are those of one step of constant k at n times the concentration, so the curves coincide.
+  const double pk = 4.75, l2 = std::log10(2.0), l3 = std::log10(3.0);
+  const auto one = titration(sample(25.0, {weak_acid(0.1, {pk})}), {}, chem::ActivityModel::ideal);
+  const auto two = titration(sample(25.0, {weak_acid(0.05, {pk - l2, pk + l2})}), {}, chem::ActivityModel::ideal);
+  const auto three =
+      titration(sample(25.0, {weak_acid(0.1 / 3.0, {pk - l3, pk, pk + l3})}), {}, chem::ActivityModel::ideal);
+  for (double v = 0.0; v <= 35.0; v += 0.5) {
+    CAPTURE(v);
+    CHECK(two.pH(v) == close(one.pH(v), 0.0, 1e-7));
+    CHECK(three.pH(v) == close(one.pH(v), 0.0, 1e-7));
+  }
+  // With activity (Davies) the charges of the forms differ (A2- against A-), and so do the curves: the
+  // difference the fit's merged-steps rule keeps from deciding a model (DEVELOPERS.md, "Model selection").
+  const auto one_d = titration(sample(25.0, {weak_acid(0.1, {pk})}), {}, chem::ActivityModel::davies);
+  const auto two_d = titration(sample(25.0, {weak_acid(0.05, {pk - l2, pk + l2})}), {}, chem::ActivityModel::davies);
+  CHECK(std::fabs(two_d.pH(15.0) - one_d.pH(15.0)) > 0.01);
+}

@@ -2,6 +2,7 @@
 // Robustness of the fit: a spike cannot pull it; model selection picks the chemistry the run was made with.
 #include <algorithm>
 #include <catch2/catch.hpp>
+#include <cstdint>
 
 #include "fit/fit_support.hpp"
 #include "support/approx.hpp"
@@ -75,7 +76,9 @@ TEST_CASE("model selection picks the model the run was made with, and names the 
   CHECK(a.fit.best->model == c.expected);
   REQUIRE(a.fit.runner_up);
   CHECK(a.fit.runner_up->model != c.expected);
-  CHECK(a.fit.runner_up->score >= a.fit.best->score);
+  // A runner-up with a better score is one the rule set aside (a parameter on its bound, merged steps).
+  CAPTURE(a.fit.runner_up->set_aside);
+  CHECK((a.fit.runner_up->score >= a.fit.best->score || !a.fit.runner_up->set_aside.empty()));
   std::string flags;
   for (const auto& f : a.fit.best->flags) flags += f + " ";
   CAPTURE(flags);
@@ -90,6 +93,56 @@ TEST_CASE("model selection picks the model the run was made with, and names the 
   REQUIRE(b.fit.best);
   CHECK(b.fit.best->model == c.expected);
   for (const auto& s : b.fit.candidates) CHECK(s.readings == b.fit.best->points);
+}
+
+TEST_CASE("a weak acid or base the activity model does not describe keeps its one step and its concentration",
+          "[fit][robust]") {
+  // Runs made in an ideal solution (no activity) and fitted with Davies activity: the misfit is a few
+  // hundredths of a pH, which two or three close steps at a half or a third of the concentration can absorb
+  // (the statistical-factor identity, tests/chem). Such candidates are set aside: the one-step model is
+  // named, at the concentration the run was made with. Acetic acid pKa 4.756, NH4+ 9.25 (CRC Handbook,
+  // analyte table).
+  struct Case {
+    std::string expected;
+    std::string analyte;
+    double conc;
+    veq::TitrantKind titrant;
+  };
+  const auto c = GENERATE(Case{"weak_acid", "acetic acid", 0.1, veq::TitrantKind::base},
+                          Case{"weak_base", "ammonia", 0.05, veq::TitrantKind::acid});
+  const auto seed = GENERATE(as<std::uint64_t>{}, 1, 2, 7);
+  veq::chem::SimulationOptions o = veq::test::simulation_of({{c.analyte, c.conc}}, c.titrant, 0.2);
+  o.model.activity = veq::chem::ActivityModel::ideal;
+  o.noise.sd = 0.01;
+  o.noise.seed = seed;
+  const veq::Analysis a = veq::analyze(veq::test::run_from_simulation(veq::chem::simulate(o), false));
+  REQUIRE(a.fit.best);
+  std::string scores;
+  for (const auto& s : a.fit.candidates) scores += s.model + " " + std::to_string(s.score) + " " + s.set_aside + "; ";
+  CAPTURE(c.analyte, seed, scores);
+  CHECK(a.fit.best->model == c.expected);
+  REQUIRE(a.fit.best->parameter("c") != nullptr);
+  CHECK(a.fit.best->parameter("c")->value == Approx(c.conc).epsilon(0.005));
+}
+
+TEST_CASE("a high first reading (a settling electrode) does not change the chemistry the fit names", "[fit][robust]") {
+  // Acetic acid 0.08 mol/L (pKa 4.756, CRC Handbook) read every 0.1 mL with 0.01 pH noise; the first
+  // reading raised by 4 and by 13 noise SDs. The one-step model and the concentration stay.
+  veq::chem::SimulationOptions o = veq::test::simulation_of({{"acetic acid", 0.08}}, veq::TitrantKind::base, 0.1);
+  o.noise.sd = 0.01;
+  o.noise.seed = 7;
+  veq::Run run = veq::test::run_from_simulation(veq::chem::simulate(o), false);
+  const double raise = GENERATE(0.04, 0.13);
+  run.signal_values[0] += raise;
+  const veq::Analysis a = veq::analyze(run);
+  REQUIRE(a.fit.best);
+  std::string scores;
+  for (const auto& s : a.fit.candidates) scores += s.model + " " + std::to_string(s.score) + " " + s.set_aside + "; ";
+  CAPTURE(raise, scores);
+  CHECK(a.fit.best->model == "weak_acid");
+  REQUIRE(a.fit.best->parameter("c") != nullptr);
+  CHECK(a.fit.best->parameter("c")->value == Approx(0.08).epsilon(1e-3));
+  CHECK(a.fit.usable());
 }
 
 TEST_CASE("a base titrant that took up CO2: the fit retries with its carbonate free and says so", "[fit][robust]") {

@@ -243,6 +243,10 @@ struct ModelScore {
   bool converged = false;
   int free_parameters = 0;
   double residual_sd = 0.0;
+  // Why model selection passes it over whatever its score: "parameter_at_bound" (a free parameter on its
+  // bound), "steps_merged" (two titrated steps too close for the curve to tell them from one),
+  // "step_out_of_reach" (a titrated step's pKa more than 2 beyond the readings' pH), or "".
+  std::string set_aside;
 };
 
 // The fit of one run: the chosen model, and how the candidates scored.
