@@ -45,6 +45,7 @@ constexpr std::array<Candidate, 10> kCandidates = {{{',', '.'},
                                                     {',', ','}}};
 
 constexpr std::size_t kSampleLines = 2000;
+constexpr std::size_t kMaxNoteChars = 500;  // a line after the table kept as a note, at most
 constexpr std::size_t kSampleBytes = std::size_t{1} << 20;
 
 struct Shape {
@@ -242,6 +243,7 @@ class Reader {
   std::size_t m_vol = 0, m_sig = 1;
   std::optional<std::size_t> m_temp, m_time;
   double m_vol_factor = 1.0, m_sig_factor = 1.0;
+  bool m_vol_unit_assumed = false;  // mL taken for a volume column that states no unit
   double m_temp_factor = 1.0, m_temp_offset = 0.0, m_time_factor = 1.0;
   std::vector<Field> m_fields;
   std::vector<std::string> m_header;  // header cells, to recognise a header repeated inside the table
@@ -250,7 +252,8 @@ class Reader {
     std::size_t line;
     std::size_t column;
     std::string text;
-    std::string what;  // which column held it, or "row"
+    std::string what;       // which column held it, or "row"
+    std::string line_text;  // the whole line (trimmed), kept as the note when the table has ended
   };
   std::vector<Pending> m_pending;
   std::size_t m_empty_cells = 0;
@@ -306,6 +309,7 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
     if (!have_header && m_table_columns == 2) {
       vol = vol.value_or(0);
       sig = sig.value_or(1);
+      m_vol_unit_assumed = !m_opt.volume_unit;
       warn(
           "no_header",
           std::string("no header row: reading column 1 as volume (mL) and column 2 as ") + std::string(to_string(kind)),
@@ -356,6 +360,7 @@ void Reader::choose_columns(const std::vector<std::string>& header, std::size_t 
       m_vol_factor = h.unit->factor;
       m_run.volume_column.unit = h.unit->name;
     } else if (!m_opt.volume_unit && have_header) {
+      m_vol_unit_assumed = true;
       warn("volume_unit_assumed",
            fmt::format("volume column '{}' states no unit; assuming mL", detail::excerpt(header[m_vol])),
            header_line,
@@ -453,7 +458,8 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
     m_pending.push_back({line_no,
                          m_fields.front().column,
                          detail::excerpt(line, 60),
-                         fmt::format("row has {} fields; the table has {}", m_fields.size(), m_table_columns)});
+                         fmt::format("row has {} fields; the table has {}", m_fields.size(), m_table_columns),
+                         detail::excerpt(detail::trim(line), kMaxNoteChars)});
     return;
   }
   double v = 0.0, s = 0.0;
@@ -477,8 +483,11 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
   if (vs == NumberStatus::not_a_number || ss == NumberStatus::not_a_number) {
     const bool bad_v = vs == NumberStatus::not_a_number;
     const Field& f = bad_v ? fv : fs;
-    m_pending.push_back(
-        {line_no, f.column, std::string(detail::excerpt(f.text)), "column '" + col_name(bad_v ? m_vol : m_sig) + "'"});
+    m_pending.push_back({line_no,
+                         f.column,
+                         std::string(detail::excerpt(f.text)),
+                         "column '" + col_name(bad_v ? m_vol : m_sig) + "'",
+                         detail::excerpt(detail::trim(line), kMaxNoteChars)});
     return;
   }
   if (vs == NumberStatus::empty || ss == NumberStatus::empty) {
@@ -582,9 +591,10 @@ void fill_gaps(std::vector<double>& v) {
 
 void Reader::finish() {
   for (const auto& p : m_pending) {
-    m_run.notes.push_back(p.text);
+    const std::string& note = p.line_text.empty() ? p.text : p.line_text;
+    m_run.notes.push_back(note);
     if (m_run.notes.size() <= 20) {
-      warn("text_after_table", "text after the table kept as a note: '" + p.text + "'", p.line);
+      warn("text_after_table", "text after the table kept as a note: '" + detail::excerpt(note, 60) + "'", p.line);
     }
   }
   if (m_empty_cells > 5) {
@@ -624,6 +634,14 @@ void Reader::finish() {
                      m_run.volume_mL.size(),
                      *mn),
          "check that the volume column is the titrant volume (or pass --columns volume=N,signal=M)");
+  }
+  // No burette or dosing unit delivers half a litre: volumes that large, taken as mL, are most often uL.
+  constexpr double kMaxPlausible_mL = 500.0;
+  if (m_vol_unit_assumed && *mx > kMaxPlausible_mL) {
+    warn("volume_unit_doubtful",
+         fmt::format("the volumes, taken as mL, reach {:g} mL, more than any burette holds; if they are "
+                     "microlitres, pass --volume-unit uL",
+                     *mx));
   }
   fill_gaps(m_run.temperature_C);
   fill_gaps(m_run.time_s);
@@ -790,10 +808,16 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
 
   // 3. Where the table starts, its header, and the metadata before it.
   std::vector<Field> scratch;
+  // A reading row: numeric, with the table's columns, counting empty cells at its end (a first row whose
+  // derivative cell is still empty, "0.00,2.000,", has its three columns).
   auto row_ok = [&](std::size_t i) {
     if (detail::is_blank(sample[i])) return false;
     const Shape s = shape_of(sample[i], m_cand, scratch);
-    return s.numeric_row && s.fields >= m_table_columns;
+    if (!s.numeric_row) return false;
+    if (s.fields >= m_table_columns) return true;
+    if (m_cand.sep == detail::kWhitespace) return false;
+    const std::size_t cells = 1 + static_cast<std::size_t>(std::count(sample[i].begin(), sample[i].end(), m_cand.sep));
+    return cells >= m_table_columns && sample[i].find('"') == std::string::npos;
   };
   std::size_t start = sample.size();
   for (std::size_t i = 0; i < sample.size() && start == sample.size(); ++i) {

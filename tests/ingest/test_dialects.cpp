@@ -1,7 +1,6 @@
 // SPDX-License-Identifier: MIT
 // Ingest reads the dialects that instruments and people really write.
 #include <catch2/catch.hpp>
-
 #include <string>
 
 #include "support/approx.hpp"
@@ -27,8 +26,10 @@ void check_three(const Run& r) {
 std::string utf16(const std::string& ascii, bool little_endian) {
   std::string out = little_endian ? std::string("\xFF\xFE", 2) : std::string("\xFE\xFF", 2);
   for (char c : ascii) {
-    if (little_endian) out += c, out += '\0';
-    else out += '\0', out += c;
+    if (little_endian)
+      out += c, out += '\0';
+    else
+      out += '\0', out += c;
   }
   return out;
 }
@@ -75,8 +76,10 @@ TEST_CASE("runs of spaces, header names with spaces", "[ingest][dialect]") {
 }
 
 TEST_CASE("quoted fields, also holding a decimal comma", "[ingest][dialect]") {
-  check_three(parse_run("\"Volume (mL)\",\"pH\"\n\"0.00\",\"3.12\"\n\"12.50\",\"4.75\"\n\"25.00\",\"8.71\"\n", "f.csv"));
-  const Run r = parse_run("\"Volume, mL\",\"pH\"\n\"0,00\",\"3,12\"\n\"12,50\",\"4,75\"\n\"25,00\",\"8,71\"\n", "f2.csv");
+  check_three(
+      parse_run("\"Volume (mL)\",\"pH\"\n\"0.00\",\"3.12\"\n\"12.50\",\"4.75\"\n\"25.00\",\"8.71\"\n", "f.csv"));
+  const Run r =
+      parse_run("\"Volume, mL\",\"pH\"\n\"0,00\",\"3,12\"\n\"12,50\",\"4,75\"\n\"25,00\",\"8,71\"\n", "f2.csv");
   check_three(r);
   CHECK(r.dialect.decimal == ',');
 }
@@ -90,7 +93,9 @@ TEST_CASE("UTF-8 with and without BOM", "[ingest][dialect]") {
 }
 
 TEST_CASE("UTF-16 little and big endian with BOM are converted", "[ingest][dialect]") {
-  const std::string text = "Temp/\xC2\xB0""C;Volume (mL);pH\r\n25.0;0.00;3.12\r\n25.0;12.50;4.75\r\n25.0;25.00;8.71\r\n";
+  const std::string text =
+      "Temp/\xC2\xB0"
+      "C;Volume (mL);pH\r\n25.0;0.00;3.12\r\n25.0;12.50;4.75\r\n25.0;25.00;8.71\r\n";
   // Build UTF-16 by hand: the degree sign U+00B0 is one code unit.
   auto encode = [&](bool le) {
     std::string ascii = "Temp/";
@@ -113,7 +118,10 @@ TEST_CASE("UTF-16 little and big endian with BOM are converted", "[ingest][diale
 }
 
 TEST_CASE("a Latin-1 degree sign in a header", "[ingest][dialect]") {
-  const Run r = parse_run("Volume (mL);pH;Temp/\xB0""C\n0.00;3.12;24.9\n12.50;4.75;25.0\n25.00;8.71;25.1\n", "i.csv");
+  const Run r = parse_run(
+      "Volume (mL);pH;Temp/\xB0"
+      "C\n0.00;3.12;24.9\n12.50;4.75;25.0\n25.00;8.71;25.1\n",
+      "i.csv");
   check_three(r);
   CHECK(r.dialect.encoding == "latin-1");
   REQUIRE(r.temperature_column.has_value());
@@ -182,7 +190,8 @@ TEST_CASE("metadata units: uL sample, mmol/L titrant, kelvin, HCl is an acid", "
 
 TEST_CASE("header names as instruments and people write them", "[ingest][columns]") {
   SECTION("V/mL and E (mV), potential in any order, extra columns ignored") {
-    const Run r = parse_run("Time (s);E (mV);Status;V/mL\n0;250.1;ok;0.00\n10;180.4;ok;12.50\n20;-95.2;ok;25.00\n", "m1.csv");
+    const Run r =
+        parse_run("Time (s);E (mV);Status;V/mL\n0;250.1;ok;0.00\n10;180.4;ok;12.50\n20;-95.2;ok;25.00\n", "m1.csv");
     CHECK(r.signal == SignalKind::mv);
     CHECK(r.volume_mL[1] == 12.5);
     CHECK(r.signal_values[2] == -95.2);
@@ -195,18 +204,23 @@ TEST_CASE("header names as instruments and people write them", "[ingest][columns
     CHECK(r.volume_column.unit == "uL");
   }
   SECTION("ml NaOH, Temp/°C (UTF-8), pH last") {
-    const Run r = parse_run("Temp/\xC2\xB0""C;ml NaOH;pH\n25,0;0,00;3,12\n25,1;12,50;4,75\n25,0;25,00;8,71\n", "m3.csv");
+    const Run r = parse_run(
+        "Temp/\xC2\xB0"
+        "C;ml NaOH;pH\n25,0;0,00;3,12\n25,1;12,50;4,75\n25,0;25,00;8,71\n",
+        "m3.csv");
     check_three(r);
     REQUIRE(r.temperature_C.size() == 3);
     CHECK(r.temperature_C[1] == 25.1);
   }
   SECTION("derivative columns are not mistaken for readings") {
-    const Run r = parse_run("dpH/dV,Volume [ml],pH,dV (mL)\n0,0.00,3.12,0\n0.1,12.50,4.75,12.5\n0.2,25.00,8.71,12.5\n", "m4.csv");
+    const Run r =
+        parse_run("dpH/dV,Volume [ml],pH,dV (mL)\n0,0.00,3.12,0\n0.1,12.50,4.75,12.5\n0.2,25.00,8.71,12.5\n", "m4.csv");
     check_three(r);
     CHECK(r.volume_column.index == 1);
   }
   SECTION("potential in volts is converted to mV; temperature in K") {
-    const Run r = parse_run("U (V)\tT (K)\tVol (mL)\n0.2501\t298.15\t0\n0.1804\t298.15\t12.5\n-0.0952\t298.15\t25\n", "m5.tsv");
+    const Run r =
+        parse_run("U (V)\tT (K)\tVol (mL)\n0.2501\t298.15\t0\n0.1804\t298.15\t12.5\n-0.0952\t298.15\t25\n", "m5.tsv");
     CHECK(r.signal == SignalKind::mv);
     CHECK(r.signal_values[0] == veq::test::close(250.1, 1e-12));
     REQUIRE(r.temperature_C.size() == 3);
@@ -238,7 +252,8 @@ TEST_CASE("overrides: --columns and --volume-unit", "[ingest][columns]") {
 }
 
 TEST_CASE("text lines after the table become notes with a warning", "[ingest]") {
-  const Run r = parse_run("Volume (mL);pH\n0.00;3.12\n12.50;4.75\n25.00;8.71\nEnd of titration\nEP1;12.31 mL\n", "p.csv");
+  const Run r =
+      parse_run("Volume (mL);pH\n0.00;3.12\n12.50;4.75\n25.00;8.71\nEnd of titration\nEP1;12.31 mL\n", "p.csv");
   check_three(r);
   REQUIRE(r.notes.size() == 2);
   CHECK(r.notes[0] == "End of titration");
@@ -264,7 +279,9 @@ TEST_CASE("sorting on request accepts rows out of order", "[ingest]") {
 
 TEST_CASE("whole-file and streaming reads give the same run", "[ingest]") {
   // Every dialect feature at once: UTF-8 BOM, CR line ends, metadata, decimal comma, text after the table.
-  std::string text = "\xEF\xBB\xBFSample: S-1\rSample volume = 25,0 mL\r\rV/mL;pH;Temp/\xC2\xB0" "C\r";
+  std::string text =
+      "\xEF\xBB\xBFSample: S-1\rSample volume = 25,0 mL\r\rV/mL;pH;Temp/\xC2\xB0"
+      "C\r";
   for (int i = 0; i < 3000; ++i) text += std::to_string(i) + ",05;" + std::to_string(3 + i % 7) + ",12;25,0\r";
   text += "End\r";
   veq::ingest::IngestOptions stream;
@@ -308,9 +325,10 @@ TEST_CASE("a two-line header with (-) as the unit of pH", "[ingest][columns]") {
 }
 
 TEST_CASE("German metadata keys of lab exports are read", "[ingest][metadata]") {
-  const Run r = parse_run("Probe: W-12\nProbenvolumen: 50 ml\nTitriermittel: NaOH 0,1 mol/l\nTemperatur: 21 °C\n"
-                          "Volumen (ml);pH-Wert\n0,00;3,12\n12,50;4,75\n25,00;8,71\n",
-                          "de.csv");
+  const Run r = parse_run(
+      "Probe: W-12\nProbenvolumen: 50 ml\nTitriermittel: NaOH 0,1 mol/l\nTemperatur: 21 °C\n"
+      "Volumen (ml);pH-Wert\n0,00;3,12\n12,50;4,75\n25,00;8,71\n",
+      "de.csv");
   check_three(r);
   CHECK(r.facts.sample_id == "W-12");
   REQUIRE(r.facts.sample_volume_mL);
@@ -320,4 +338,58 @@ TEST_CASE("German metadata keys of lab exports are read", "[ingest][metadata]") 
   CHECK(r.facts.titrant_kind == veq::TitrantKind::base);
   REQUIRE(r.facts.temperature_C);
   CHECK(*r.facts.temperature_C == 21.0);
+}
+
+TEST_CASE("a derivative column whose first cell is empty keeps the header and the first reading", "[ingest][columns]") {
+  // Exports with a dpH/dV column leave its first cell empty: there is no derivative before the second
+  // reading (common practice, no source).
+  for (const char* sep : {",", ";", "\t"}) {
+    CAPTURE(sep);
+    const std::string s(sep);
+    const Run r = parse_run("Volume (mL)" + s + "pH" + s + "dpH/dV\n0.00" + s + "3.12" + s + "\n12.50" + s + "4.75" +
+                                s + "0.13\n25.00" + s + "8.71" + s + "0.32\n",
+                            "d.csv");
+    check_three(r);
+    CHECK(r.dialect.header_line == 1);
+    for (const auto& w : r.warnings) CHECK(w.code != "text_after_table");
+  }
+  // In microlitres too: the header's unit is kept.
+  const Run u = parse_run("Vol (uL)\tpH\tdpH/dV\n0\t3.12\t\n12500\t4.75\t0.13\n25000\t8.71\t0.32\n", "u.tsv");
+  check_three(u);
+}
+
+TEST_CASE("volumes with no unit that no burette holds as mL get a warning to check the unit", "[ingest][columns]") {
+  // A burette or dosing unit holds 5 to 100 mL (common practice, no source): 26000 "mL" is most often uL.
+  const Run big = parse_run("Volume,pH\n0,3.12\n12500,4.75\n26000,8.71\n", "ul.csv");
+  bool doubtful = false;
+  for (const auto& w : big.warnings) doubtful = doubtful || w.code == "volume_unit_doubtful";
+  CHECK(doubtful);
+  const Run small = parse_run("Volume,pH\n0,3.12\n12.5,4.75\n26,8.71\n", "ml.csv");
+  for (const auto& w : small.warnings) CHECK(w.code != "volume_unit_doubtful");
+  // A stated unit is not doubted.
+  const Run stated = parse_run("Volume (uL),pH\n0,3.12\n12500,4.75\n25000,8.71\n", "st.csv");
+  check_three(stated);
+  for (const auto& w : stated.warnings) CHECK(w.code != "volume_unit_doubtful");
+}
+
+TEST_CASE("a summary line after the table is kept whole as a note", "[ingest]") {
+  const Run r = parse_run("Volumen (ml);pH\n0,00;3,12\n12,50;4,75\n25,00;8,71\nEndpunkt 1;20,01 mL;pH 7,00\n", "e.csv");
+  check_three(r);
+  REQUIRE(r.notes.size() == 1);
+  CHECK(r.notes[0] == "Endpunkt 1;20,01 mL;pH 7,00");
+}
+
+TEST_CASE("a titrant concentration written c(NaOH) = 0.1 mol/l names the titrant too", "[ingest][metadata]") {
+  // c(X) for the amount concentration of X: IUPAC Green Book, 3rd ed. (2007) §2.10 (from memory).
+  const Run r =
+      parse_run("V0 = 20 ml\nc(NaOH) = 0.1 mol/l\nV (ml)\tpH\n0.00\t3.12\n12.50\t4.75\n25.00\t8.71\n", "c.txt");
+  check_three(r);
+  REQUIRE(r.facts.titrant_conc_mol_L);
+  CHECK(*r.facts.titrant_conc_mol_L == 0.1);
+  CHECK(r.facts.titrant_kind == veq::TitrantKind::base);
+  CHECK(r.facts.titrant_name == "NaOH");
+  const Run h = parse_run("c(HCl) = 0.05 mol/L\nV (ml)\tpH\n0.00\t3.12\n12.50\t4.75\n25.00\t8.71\n", "h.txt");
+  REQUIRE(h.facts.titrant_conc_mol_L);
+  CHECK(*h.facts.titrant_conc_mol_L == 0.05);
+  CHECK(h.facts.titrant_kind == veq::TitrantKind::acid);
 }
