@@ -146,7 +146,7 @@ bool FitSummary::usable() const {
   if (status != FitStatus::converged) return false;
   for (const auto& f : flags) {
     if (f == kFlagNotConverged || f == kFlagAtBound || f == kFlagCovarianceFailed || f == kFlagResidualPattern ||
-        f == kFlagPoorFit)
+        f == kFlagPoorFit || f == kFlagStepsMerged)
       return false;
   }
   return true;
@@ -1697,6 +1697,12 @@ FitResult fit_titration(const Curve& curve,
     }
   }
   FitSummary summary = summarise(win, p, o, delta, endpoints);
+  // A model named or left alone whose fitted steps merged (a fitted pKa among them).
+  if (merged_steps(win, p.base_titrant) &&
+      std::any_of(win.layout.params.begin(), win.layout.params.end(), [](const ParamDef& d) {
+        return d.role == Role::pKa && d.index >= 0;
+      }))
+    summary.flags.emplace_back(kFlagStepsMerged);
   // Why the rule passes a candidate over, whatever its score; the chosen model first, the others as sorted.
   for (ModelScore& c : result.candidates) {
     for (const Attempt& q : best_per_shape) {

@@ -125,6 +125,28 @@ TEST_CASE("a weak acid or base the activity model does not describe keeps its on
   CHECK(a.fit.best->parameter("c")->value == Approx(c.conc).epsilon(0.005));
 }
 
+TEST_CASE("a two-step model named for a one-step sample is flagged steps_merged and not used", "[fit][robust]") {
+  // Sodium hydrogen carbonate titrated with HCl takes one proton (HCO3- to H2CO3, pKa 6.35; carbonic acid
+  // 6.35/10.33, CRC Handbook, analyte table). A carbonate model (two protons) can only follow that one
+  // step with its two pKa values merged and half the concentration.
+  veq::chem::SimulationOptions o =
+      veq::test::simulation_of({{"sodium hydrogen carbonate", 0.05}}, veq::TitrantKind::acid, 0.2);
+  o.noise.sd = 0.005;
+  o.noise.seed = 137;
+  veq::AnalyzeOptions ao;
+  ao.fit.model = "carbonate_base";
+  const veq::Analysis a = veq::analyze(veq::test::run_from_simulation(veq::chem::simulate(o), false), ao);
+  REQUIRE(a.fit.best);
+  const auto& fl = a.fit.best->flags;
+  CHECK(std::find(fl.begin(), fl.end(), std::string(veq::fit::kFlagStepsMerged)) != fl.end());
+  CHECK_FALSE(a.fit.usable());
+  // Named as the substance it is, the one step fits and is used.
+  ao.fit.model = "sodium hydrogen carbonate";
+  const veq::Analysis b = veq::analyze(veq::test::run_from_simulation(veq::chem::simulate(o), false), ao);
+  REQUIRE(b.fit.best);
+  CHECK(b.fit.usable());
+}
+
 TEST_CASE("a high first reading (a settling electrode) does not change the chemistry the fit names", "[fit][robust]") {
   // Acetic acid 0.08 mol/L (pKa 4.756, CRC Handbook) read every 0.1 mL with 0.01 pH noise; the first
   // reading raised by 4 and by 13 noise SDs. The one-step model and the concentration stay.

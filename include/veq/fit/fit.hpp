@@ -145,8 +145,11 @@ inline constexpr const char* kFlagCovarianceFailed = "covariance_failed";  // pa
 inline constexpr const char* kFlagResidualPattern = "residual_pattern";    // runs test: the model misses a shape
 inline constexpr const char* kFlagPoorFit = "poor_fit";                    // residual SD well above the noise
 inline constexpr const char* kFlagAmbiguous = "ambiguous_model";           // runner-up within 2 criterion units
-inline constexpr const char* kFlagSkipped = "skipped";                     // not run (facts missing, too few points)
-inline constexpr const char* kFlagFailed = "failed";                       // no candidate could be fitted
+// Two titrated steps closer than the curve can tell from one step (the model's concentration is then a
+// half or a third of what one step would say: not determined by the readings).
+inline constexpr const char* kFlagStepsMerged = "steps_merged";
+inline constexpr const char* kFlagSkipped = "skipped";  // not run (facts missing, too few points)
+inline constexpr const char* kFlagFailed = "failed";    // no candidate could be fitted
 
 // One fitted (or held) parameter.
 struct Parameter {
