@@ -2,11 +2,12 @@
 // Field splitting and exact number parsing (fast_float) for ingest.
 #include "ingest/text.hpp"
 
+#include <fast_float/fast_float.h>
+
+#include <algorithm>
 #include <array>
 #include <cmath>
 #include <cstring>
-
-#include <fast_float/fast_float.h>
 
 namespace veq::ingest::detail {
 
@@ -75,6 +76,34 @@ NumberStatus parse_number(std::string_view text, char decimal, double& out, int*
   if (text.empty()) return NumberStatus::empty;
   if (text.front() == '+') text.remove_prefix(1);
   if (text.empty() || text.size() > 64) return NumberStatus::not_a_number;
+  // A decimal-comma number whose thousands are grouped by points ("12.500,0"): the points dropped when the
+  // first group has 1 to 3 digits and every later one 3 (common practice in decimal-comma locales, no
+  // source). Anything else with a point stays not a number there.
+  std::array<char, 64> ungrouped{};
+  if (decimal == ',' && text.find('.') != std::string_view::npos) {
+    const std::size_t lead = text.front() == '-' ? 1 : 0;
+    const std::size_t end = std::min(text.find_first_of(",eE"), text.size());
+    std::size_t n = 0, group = 0, groups = 0;
+    bool ok = end > lead;
+    for (std::size_t i = 0; i < lead; ++i) ungrouped[n++] = text[i];
+    for (std::size_t i = lead; i < end && ok; ++i) {
+      const char c = text[i];
+      if (c == '.') {
+        ok = (groups == 0 ? group >= 1 && group <= 3 : group == 3);
+        ++groups;
+        group = 0;
+      } else if (c >= '0' && c <= '9') {
+        ungrouped[n++] = c;
+        ++group;
+      } else {
+        ok = false;
+      }
+    }
+    ok = ok && groups > 0 && group == 3;
+    if (!ok) return NumberStatus::not_a_number;
+    for (std::size_t i = end; i < text.size(); ++i) ungrouped[n++] = text[i];
+    text = std::string_view(ungrouped.data(), n);
+  }
   std::array<char, 64> buf{};
   std::memcpy(buf.data(), text.data(), text.size());
   int dec_pos = -1;
@@ -101,8 +130,10 @@ NumberStatus parse_number(std::string_view text, char decimal, double& out, int*
   // fast_float accepts "nan" and "inf": those are numbers, but not finite ones.
   out = value;
   if (decimals != nullptr) {
-    if (exponent) *decimals = -1;
-    else *decimals = dec_pos < 0 ? 0 : static_cast<int>(text.size()) - dec_pos - 1;
+    if (exponent)
+      *decimals = -1;
+    else
+      *decimals = dec_pos < 0 ? 0 : static_cast<int>(text.size()) - dec_pos - 1;
   }
   return NumberStatus::ok;
 }
@@ -117,14 +148,36 @@ std::string normalize_label(std::string_view s) {
       continue;
     }
     const auto next = i + 1 < s.size() ? static_cast<unsigned char>(s[i + 1]) : 0;
-    if (c == 0xC2 && (next == 0xB5)) { out.push_back('u'); ++i; continue; }        // µ micro sign
-    if (c == 0xCE && (next == 0xBC)) { out.push_back('u'); ++i; continue; }        // μ Greek mu
-    if (c == 0xC2 && (next == 0xB0 || next == 0xBA)) { ++i; continue; }            // ° º
-    if (c == 0xC2 && next == 0xB3) { out.push_back('3'); ++i; continue; }          // ³
-    if (c == 0xCE && next == 0x94) { out += "delta"; ++i; continue; }              // Δ
-    if (c == 0xCE && next == 0xB4) { out += "delta"; ++i; continue; }              // δ
-    if (c == 0xE2 && next == 0x84 && i + 2 < s.size() &&
-        static_cast<unsigned char>(s[i + 2]) == 0x83) {                          // ℃
+    if (c == 0xC2 && (next == 0xB5)) {
+      out.push_back('u');
+      ++i;
+      continue;
+    }  // µ micro sign
+    if (c == 0xCE && (next == 0xBC)) {
+      out.push_back('u');
+      ++i;
+      continue;
+    }  // μ Greek mu
+    if (c == 0xC2 && (next == 0xB0 || next == 0xBA)) {
+      ++i;
+      continue;
+    }  // ° º
+    if (c == 0xC2 && next == 0xB3) {
+      out.push_back('3');
+      ++i;
+      continue;
+    }  // ³
+    if (c == 0xCE && next == 0x94) {
+      out += "delta";
+      ++i;
+      continue;
+    }  // Δ
+    if (c == 0xCE && next == 0xB4) {
+      out += "delta";
+      ++i;
+      continue;
+    }                                                                                                     // δ
+    if (c == 0xE2 && next == 0x84 && i + 2 < s.size() && static_cast<unsigned char>(s[i + 2]) == 0x83) {  // ℃
       out.push_back('c');
       i += 2;
       continue;

@@ -3,6 +3,7 @@
 #include <catch2/catch.hpp>
 #include <string>
 
+#include "ingest/text.hpp"
 #include "support/approx.hpp"
 #include "veq/ingest/reader.hpp"
 
@@ -392,4 +393,24 @@ TEST_CASE("a titrant concentration written c(NaOH) = 0.1 mol/l names the titrant
   REQUIRE(h.facts.titrant_conc_mol_L);
   CHECK(*h.facts.titrant_conc_mol_L == 0.05);
   CHECK(h.facts.titrant_kind == veq::TitrantKind::acid);
+}
+
+TEST_CASE("decimal-comma numbers with points grouping the thousands, as uL exports write them", "[ingest][dialect]") {
+  // 12.500,0 uL = 12.5 mL: points group thousands where the comma is the decimal sign (common practice in
+  // decimal-comma locales, no source).
+  const Run r = parse_run("Volume [uL];pH\n0,0;3,12\n12.500,0;4,75\n25.000,0;8,71\n", "g.csv");
+  check_three(r);
+  CHECK(r.dialect.separator == ';');
+  CHECK(r.dialect.decimal == ',');
+  // Points that do not group thousands are not numbers there: the row is an error.
+  CHECK_THROWS_AS(parse_run("Volume [uL];pH\n0,0;3,12\n12.50,0;4,75\n25.000,0;8,71\n26.000,0;9,01\n", "b.csv"),
+                  veq::InputError);
+  double v = 0.0;
+  using veq::ingest::detail::NumberStatus;
+  CHECK(veq::ingest::detail::parse_number("-1.234.567,5", ',', v) == NumberStatus::ok);
+  CHECK(v == -1234567.5);
+  CHECK(veq::ingest::detail::parse_number("1.5", ',', v) == NumberStatus::not_a_number);
+  CHECK(veq::ingest::detail::parse_number("1.2345,0", ',', v) == NumberStatus::not_a_number);
+  CHECK(veq::ingest::detail::parse_number("1.250", '.', v) == NumberStatus::ok);
+  CHECK(v == 1.25);
 }
