@@ -154,10 +154,14 @@ std::string section_results(const Analysis& a) {
       if (i >= a.gran.size()) return "&#8212;";
       const auto& b = after ? a.gran[i].after : a.gran[i].before;
       if (!b) return "&#8212;";
-      return fmt::format("{} &#177; {}{}",
+      const std::string name = after ? "gran_after" : "gran_before";
+      const bool left_out =
+          std::find(e.consensus_left_out.begin(), e.consensus_left_out.end(), name) != e.consensus_left_out.end();
+      return fmt::format("{} &#177; {}{}{}",
                          fmt_volume(b->volume_mL, d),
                          fmt_volume(b->uncertainty_mL, d),
-                         b->linear ? "" : " (not straight)");
+                         b->linear ? "" : " (not straight)",
+                         left_out ? " (left out)" : "");
     };
     std::string methods;
     for (const auto& m : e.consensus_methods) methods += (methods.empty() ? "" : ", ") + esc(m);
@@ -183,7 +187,8 @@ std::string section_results(const Analysis& a) {
   }
   s += "</tbody>\n</table>\n";
   s += "<p class=\"note\">u is the standard uncertainty (coverage factor k = 1); the volume is the consensus of the "
-       "estimates listed. " +
+       "estimates listed. An estimate marked (left out) disagreed with the reference (the fit, or the "
+       "derivative): its u is statistical, and activity or chemistry its line does not allow for moves it. " +
        esc(signal_name(c)) + " at the endpoint: " +
        (eps.front().value_method == "local_model" ? std::string("from the local model of the jump.")
                                                   : std::string("interpolated between readings.")) +

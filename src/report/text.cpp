@@ -130,6 +130,11 @@ std::string to_text(const Analysis& a) {
         if (b->pKa)
           out +=
               fmt::format("; pKa {:.2f}{}", *b->pKa, b->pKa_activity_corrected ? "" : " (not corrected for activity)");
+        const std::string name = b->after ? "gran_after" : "gran_before";
+        if (std::find(e.consensus_left_out.begin(), e.consensus_left_out.end(), name) != e.consensus_left_out.end())
+          out +=
+              "; left out of the consensus (its ± is statistical: activity or chemistry the line does not "
+              "allow for moves it)";
         out += "\n";
       }
       out += detail::endpoint_fit_line(a, e.index);
