@@ -46,6 +46,11 @@ const std::vector<UnitRow>& unit_table() {
       {"degc", {Quantity::temperature, "degC", 1.0, 0.0}},
       {"oc", {Quantity::temperature, "degC", 1.0, 0.0}},
       {"celsius", {Quantity::temperature, "degC", 1.0, 0.0}},
+      // degrees Fahrenheit: C = (F - 32) x 5/9 (NIST SP 811 (2008) B.9, from memory)
+      {"f", {Quantity::temperature, "degF", 5.0 / 9.0, -160.0 / 9.0}},
+      {"degf", {Quantity::temperature, "degF", 5.0 / 9.0, -160.0 / 9.0}},
+      {"of", {Quantity::temperature, "degF", 5.0 / 9.0, -160.0 / 9.0}},
+      {"fahrenheit", {Quantity::temperature, "degF", 5.0 / 9.0, -160.0 / 9.0}},
       {"k", {Quantity::temperature, "K", 1.0, -273.15}},
       {"kelvin", {Quantity::temperature, "K", 1.0, -273.15}},
       {"s", {Quantity::time, "s", 1.0, 0.0}},
@@ -102,10 +107,10 @@ bool contains(const std::vector<std::string>& toks, std::initializer_list<std::s
 bool is_derived_name(const std::vector<std::string>& toks) {
   for (const auto& t : toks) {
     if (t.rfind("delta", 0) == 0 || t.rfind("deriv", 0) == 0) return true;
-    if (t == "dph" || t == "dv" || t == "de" || t == "dmv" || t == "d2ph" || t == "d2e" ||
-        t == "dvdph" || t == "dphdv" || t == "dedv" || t == "1st" || t == "2nd" ||
-        t == "increment" || t == "incr" || t == "step" || t == "rate" || t == "drift" ||
-        t == "calc" || t == "calculated" || t == "fit" || t == "fitted" || t == "model") {
+    if (t == "dph" || t == "dv" || t == "de" || t == "dmv" || t == "d2ph" || t == "d2e" || t == "dvdph" ||
+        t == "dphdv" || t == "dedv" || t == "1st" || t == "2nd" || t == "increment" || t == "incr" || t == "step" ||
+        t == "rate" || t == "drift" || t == "calc" || t == "calculated" || t == "fit" || t == "fitted" ||
+        t == "model") {
       return true;
     }
   }
@@ -124,13 +129,20 @@ std::optional<UnitInfo> find_unit(std::string_view text) {
 
 std::string_view quantity_name(Quantity q) {
   switch (q) {
-    case Quantity::none: return "unrecognised";
-    case Quantity::volume: return "volume";
-    case Quantity::ph: return "pH";
-    case Quantity::potential: return "potential";
-    case Quantity::temperature: return "temperature";
-    case Quantity::time: return "time";
-    case Quantity::derived: return "derived";
+    case Quantity::none:
+      return "unrecognised";
+    case Quantity::volume:
+      return "volume";
+    case Quantity::ph:
+      return "pH";
+    case Quantity::potential:
+      return "potential";
+    case Quantity::temperature:
+      return "temperature";
+    case Quantity::time:
+      return "time";
+    case Quantity::derived:
+      return "derived";
   }
   return "unrecognised";
 }
@@ -177,16 +189,15 @@ HeaderInfo classify_header(std::string_view header) {
   if (!have_unit && name_toks.size() == 1) {
     // A bare unit as the whole header: "mL", "mV", "°C".
     const std::string& t = name_toks.front();
-    const bool degree = raw.find("\xC2\xB0") != std::string::npos ||
-                        raw.find("\xE2\x84\x83") != std::string::npos;
-    if (degree && t == "c") {
+    const bool degree = raw.find("\xC2\xB0") != std::string::npos || raw.find("\xE2\x84\x83") != std::string::npos;
+    if (degree && (t == "c" || t == "f")) {
       out.quantity = Quantity::temperature;
-      out.unit = find_unit("c");
+      out.unit = find_unit(t);
       out.unit_text = raw;
       return out;
     }
-    if (t != "v" && t != "ph" && t != "e" && t != "s" && t != "h" && t != "t" && t != "k" &&
-        t != "c" && t != "l") {
+    if (t != "v" && t != "ph" && t != "e" && t != "s" && t != "h" && t != "t" && t != "k" && t != "c" && t != "l" &&
+        t != "f") {
       if (auto u = find_unit(t)) {
         out.quantity = u->quantity;
         out.unit = u;
@@ -209,13 +220,28 @@ HeaderInfo classify_header(std::string_view header) {
 
   // Quantity from the name.
   Quantity by_name = Quantity::none;
-  if (contains(name_toks, {"ph"}) || name.rfind("ph", 0) == 0) by_name = Quantity::ph;
-  else if (contains(name_toks, {"volume", "vol", "v", "titrant", "added", "dosed", "dose",
-                                "dosing", "dosage", "burette", "buret", "vtit", "vadd", "vt",
-                                "consumption", "addition", "volumen"}))
+  if (contains(name_toks, {"ph"}) || name.rfind("ph", 0) == 0)
+    by_name = Quantity::ph;
+  else if (contains(name_toks,
+                    {"volume",
+                     "vol",
+                     "v",
+                     "titrant",
+                     "added",
+                     "dosed",
+                     "dose",
+                     "dosing",
+                     "dosage",
+                     "burette",
+                     "buret",
+                     "vtit",
+                     "vadd",
+                     "vt",
+                     "consumption",
+                     "addition",
+                     "volumen"}))
     by_name = Quantity::volume;
-  else if (contains(name_toks, {"e", "emf", "potential", "mv", "voltage", "u", "millivolts",
-                                "redox", "orp", "epot"}))
+  else if (contains(name_toks, {"e", "emf", "potential", "mv", "voltage", "u", "millivolts", "redox", "orp", "epot"}))
     by_name = Quantity::potential;
   else if (contains(name_toks, {"temp", "temperature", "theta", "temperatur"}))
     by_name = Quantity::temperature;

@@ -405,6 +405,8 @@ Facts facts_from_metadata(const std::vector<MetaEntry>& entries,
     const double nernst = nernst_slope_mV(cal.temperature_C);
     cal.slope_mV_per_pH = slope ? std::fabs(*slope) : nernst * slope_percent.value_or(100.0) / 100.0;
     cal.source = "metadata";
+    cal.at_run_temperature = !cal_temp && !f.temperature_C;
+    if (!slope) cal.nernst_fraction = slope_percent.value_or(100.0) / 100.0;
     if (cal.slope_mV_per_pH > 0.8 * nernst && cal.slope_mV_per_pH < 1.1 * nernst) {  // as signal::kMinSlopeFraction
       f.electrode = cal;
     } else {

@@ -2,10 +2,10 @@
 // Prepare: duplicates, electrode calibration, spikes, noise.
 #include "veq/signal/prepare.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
-
-#include <fmt/format.h>
 
 #include "veq/core/constants.hpp"
 
@@ -33,7 +33,8 @@ double neighbour_residual(std::span<const double> v, std::span<const double> y, 
 
 std::vector<std::string> PrepareOptions::validate() const {
   std::vector<std::string> p;
-  if (!(spike_threshold_sd >= 3.0)) p.push_back(fmt::format("spike_threshold_sd = {:g}: must be at least 3", spike_threshold_sd));
+  if (!(spike_threshold_sd >= 3.0))
+    p.push_back(fmt::format("spike_threshold_sd = {:g}: must be at least 3", spike_threshold_sd));
   if (!(min_noise_pH > 0.0)) p.push_back(fmt::format("min_noise_pH = {:g}: must be positive", min_noise_pH));
   if (electrode && !(std::fabs(electrode->slope_mV_per_pH) > 1.0)) {
     p.push_back(fmt::format("electrode slope = {:g} mV/pH: must not be zero", electrode->slope_mV_per_pH));
@@ -94,10 +95,11 @@ double estimate_noise(std::span<const double> v, std::span<const double> y) {
   return 1.4826 * median(std::move(flat));
 }
 
-ElectrodeCalibration calibration_from_buffers(double pH1, double E1_mV, double pH2, double E2_mV,
-                                              double temperature_C) {
+ElectrodeCalibration calibration_from_buffers(
+    double pH1, double E1_mV, double pH2, double E2_mV, double temperature_C) {
   if (std::fabs(pH1 - pH2) < 0.5) {
-    throw InputError({"--buffers", 0, 0}, fmt::format("buffers pH {:g} and {:g} are too close", pH1, pH2),
+    throw InputError({"--buffers", 0, 0},
+                     fmt::format("buffers pH {:g} and {:g} are too close", pH1, pH2),
                      "use two buffers at least 2 pH units apart that bracket the sample");
   }
   const double slope = (E1_mV - E2_mV) / (pH2 - pH1);
@@ -105,7 +107,9 @@ ElectrodeCalibration calibration_from_buffers(double pH1, double E1_mV, double p
   if (std::fabs(slope) < kMinSlopeFraction * nernst || std::fabs(slope) > kMaxSlopeFraction * nernst) {
     throw InputError({"--buffers", 0, 0},
                      fmt::format("buffer readings give a slope of {:.1f} mV/pH ({:.0f} % of the Nernst slope {:.2f})",
-                                 slope, 100.0 * slope / nernst, nernst),
+                                 slope,
+                                 100.0 * slope / nernst,
+                                 nernst),
                      "check the buffer values and readings; a working electrode gives 90-102 %");
   }
   ElectrodeCalibration cal;
@@ -154,7 +158,12 @@ Curve prepare(const Run& run, const PrepareOptions& options) {
   c.resolution = run.signal_resolution;
 
   // mV -> pH through a calibration, when one is known.
-  const std::optional<ElectrodeCalibration>& cal = options.electrode ? options.electrode : run.facts.electrode;
+  std::optional<ElectrodeCalibration> cal = options.electrode ? options.electrode : run.facts.electrode;
+  if (cal && cal->at_run_temperature) {
+    // No temperature of its own: the calibration holds at the run's (its Nernstian slope too).
+    cal->temperature_C = c.temperature_C;
+    if (cal->nernst_fraction) cal->slope_mV_per_pH = nernst_slope_mV(c.temperature_C) * *cal->nernst_fraction;
+  }
   if (run.signal == SignalKind::mv && cal) {
     // Temperature compensation keeps the isopotential point at pH 7 (common
     // practice for combination glass electrodes, no source) and scales the slope
@@ -197,12 +206,15 @@ Curve prepare(const Run& run, const PrepareOptions& options) {
       c.spike[i] = 1;
       ++spikes;
       if (spikes <= 10) {
-        c.warnings.push_back({"spike",
-                              fmt::format("reading {:g} at {:g} mL is an isolated spike ({:.2g} {} off its neighbours); "
-                                          "kept, but not used for endpoints",
-                                          c.value[i],
-                                          c.volume_mL[i], std::fabs(r), to_string(c.signal)),
-                              {file, c.line[i], 0}});
+        c.warnings.push_back(
+            {"spike",
+             fmt::format("reading {:g} at {:g} mL is an isolated spike ({:.2g} {} off its neighbours); "
+                         "kept, but not used for endpoints",
+                         c.value[i],
+                         c.volume_mL[i],
+                         std::fabs(r),
+                         to_string(c.signal)),
+             {file, c.line[i], 0}});
       }
     }
   }
@@ -233,7 +245,8 @@ Curve prepare(const Run& run, const PrepareOptions& options) {
     const int expected = run.facts.titrant_kind == TitrantKind::base ? +1 : -1;
     if (expected != c.direction && std::fabs(change) >= 10.0 * c.noise_sd) {
       c.warnings.push_back({"direction",
-                            fmt::format("pH {} although the titrant is an {}", c.direction > 0 ? "rises" : "falls",
+                            fmt::format("pH {} although the titrant is an {}",
+                                        c.direction > 0 ? "rises" : "falls",
                                         to_string(run.facts.titrant_kind)),
                             {file, 0, 0}});
     }

@@ -414,3 +414,15 @@ TEST_CASE("decimal-comma numbers with points grouping the thousands, as uL expor
   CHECK(veq::ingest::detail::parse_number("1.250", '.', v) == NumberStatus::ok);
   CHECK(v == 1.25);
 }
+
+TEST_CASE("a temperature column in degrees Fahrenheit is converted to Celsius", "[ingest][columns]") {
+  // C = (F - 32) x 5/9 (NIST SP 811 (2008) B.9, from memory): 98.6 F = 37 C, 77 F = 25 C.
+  const Run r = parse_run(
+      "Volume (mL),pH,Temp (\xC2\xB0"
+      "F)\n0.00,3.12,98.6\n12.50,4.75,77.0\n25.00,8.71,77.0\n",
+      "f.csv");
+  check_three(r);
+  REQUIRE(r.temperature_C.size() == 3);
+  CHECK(r.temperature_C[0] == veq::test::close(37.0, 1e-12));
+  CHECK(r.temperature_C[1] == veq::test::close(25.0, 1e-12));
+}

@@ -1,7 +1,6 @@
 // SPDX-License-Identifier: MIT
 // Derivative endpoints on curves computed in the test from the exact charge balance.
 #include <catch2/catch.hpp>
-
 #include <cmath>
 #include <random>
 #include <vector>
@@ -10,13 +9,13 @@
 #include "support/charge_balance.hpp"
 #include "support/runs.hpp"
 #include "veq/analyze.hpp"
+#include "veq/ingest/reader.hpp"
 #include "veq/signal/derivatives.hpp"
 #include "veq/signal/endpoints.hpp"
-#include "veq/ingest/reader.hpp"
 #include "veq/signal/prepare.hpp"
 
-using veq::test::Sample;
 using veq::test::grid;
+using veq::test::Sample;
 
 namespace {
 
@@ -206,6 +205,37 @@ TEST_CASE("mV runs: endpoints on mV without calibration, pH with one", "[signal]
   CHECK(ph.curve.value[0] == veq::test::close(veq::test::pH_at_volume(s, 0.0), 1e-9));
   REQUIRE(ph.endpoints.endpoints.size() == 1);
   CHECK(ph.endpoints.endpoints[0].value == veq::test::close(7.0, 0.0, 0.02));
+}
+
+TEST_CASE("an E0 line in a file without a temperature holds at the run's temperature", "[signal][prepare]") {
+  // Nernst slope RT ln10 / F (CODATA 2018 constants): 59.159 mV/pH at 25 °C, 61.540 at 37 °C. A run at
+  // 37 °C read with E = E0 - 61.540 pH; the file says only "E0: 400 mV" (a Nernstian electrode).
+  const Sample s = strong_acid(20.0);
+  veq::Run r = veq::test::synthetic_run(s, grid(0.0, 30.0, 0.05));
+  const double slope37 = 59.159 * (37.0 + 273.15) / 298.15;
+  r.signal = veq::SignalKind::mv;
+  for (double& y : r.signal_values) y = 400.0 - slope37 * y;
+  r.facts.temperature_C = 37.0;  // from a temperature column or --temperature, not the metadata
+  veq::ElectrodeCalibration cal;
+  cal.e0_mV = 400.0;
+  cal.slope_mV_per_pH = 59.159;  // Nernst at the 25 °C metadata parsing assumed
+  cal.source = "metadata";
+  cal.at_run_temperature = true;
+  cal.nernst_fraction = 1.0;
+  r.facts.electrode = cal;
+  const veq::Analysis a = veq::analyze(r);
+  REQUIRE(a.curve.signal == veq::SignalKind::ph);
+  CHECK(a.curve.value[0] == veq::test::close(veq::test::pH_at_volume(s, 0.0), 0.0, 1e-3));
+  // And read from a file: the same readings with "E0: 400 mV" and no temperature line.
+  std::string text = "E0: 400 mV\nVolume (mL),E (mV)\n";
+  for (std::size_t i = 0; i < r.volume_mL.size(); ++i)
+    text += std::to_string(r.volume_mL[i]) + "," + std::to_string(r.signal_values[i]) + "\n";
+  veq::Run f = veq::ingest::parse_run(text, "e0.csv");
+  REQUIRE(f.facts.electrode);
+  CHECK(f.facts.electrode->at_run_temperature);
+  f.facts.temperature_C = 37.0;
+  const veq::Analysis b = veq::analyze(f);
+  CHECK(b.curve.value[0] == veq::test::close(veq::test::pH_at_volume(s, 0.0), 0.0, 1e-3));
 }
 
 TEST_CASE("calibration from two buffers", "[signal][prepare]") {

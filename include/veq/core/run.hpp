@@ -24,12 +24,12 @@ enum class TitrantKind { unknown, base, acid };
 // How a file was written, as ingest found it. Reported so that a reader can
 // check that the file was understood.
 struct Dialect {
-  std::string encoding = "utf-8";  // utf-8, utf-8-bom, utf-16le, utf-16be, latin-1
-  std::string line_ending = "lf";  // lf, crlf, cr, mixed, none
-  char separator = ',';            // ' ' stands for runs of spaces or tabs
-  char decimal = '.';              // '.' or ','
-  std::size_t header_line = 0;     // 1-based; 0 when the table has no header
-  std::size_t first_data_line = 0; // 1-based line of the first reading
+  std::string encoding = "utf-8";   // utf-8, utf-8-bom, utf-16le, utf-16be, latin-1
+  std::string line_ending = "lf";   // lf, crlf, cr, mixed, none
+  char separator = ',';             // ' ' stands for runs of spaces or tabs
+  char decimal = '.';               // '.' or ','
+  std::size_t header_line = 0;      // 1-based; 0 when the table has no header
+  std::size_t first_data_line = 0;  // 1-based line of the first reading
 };
 
 // A column of the table as ingest identified it.
@@ -42,10 +42,14 @@ struct Column {
 // Electrode calibration for converting a potential to pH:
 // pH = (e0_mV - E) / slope_mV_per_pH, the slope referring to temperature_C.
 struct ElectrodeCalibration {
-  double e0_mV = 0.0;             // potential at pH 0 [mV]
-  double slope_mV_per_pH = 0.0;   // positive when E falls as pH rises (the usual sign) [mV]
-  double temperature_C = 25.0;    // temperature the slope was measured at [°C]
-  std::string source;             // where it came from: "options", "metadata", "buffers"
+  double e0_mV = 0.0;            // potential at pH 0 [mV]
+  double slope_mV_per_pH = 0.0;  // positive when E falls as pH rises (the usual sign) [mV]
+  double temperature_C = 25.0;   // temperature the slope was measured at [°C]
+  std::string source;            // where it came from: "options", "metadata", "buffers"
+  // A calibration stated without a temperature of its own (an E0 line in a file with no temperature line):
+  // taken at the run's temperature, the slope too when it is a fraction of Nernst's (nernst_fraction).
+  bool at_run_temperature = false;
+  std::optional<double> nernst_fraction;  // the slope as a fraction of the Nernst slope, when given so
 };
 
 // What is known about a run beyond its readings: from the file's metadata
@@ -53,12 +57,12 @@ struct ElectrodeCalibration {
 // a stage that needs one says so instead of guessing.
 struct Facts {
   std::string sample_id;
-  std::optional<double> sample_volume_mL;   // V0 [mL]
-  std::optional<double> sample_mass_g;      // [g]
-  std::optional<double> titrant_conc_mol_L; // Ct [mol/L]
+  std::optional<double> sample_volume_mL;    // V0 [mL]
+  std::optional<double> sample_mass_g;       // [g]
+  std::optional<double> titrant_conc_mol_L;  // Ct [mol/L]
   TitrantKind titrant_kind = TitrantKind::unknown;
   std::string titrant_name;
-  std::optional<double> temperature_C;      // [°C]
+  std::optional<double> temperature_C;  // [°C]
   std::optional<ElectrodeCalibration> electrode;
 };
 
@@ -68,7 +72,7 @@ struct Run {
   std::string source;  // path or name as given
   Dialect dialect;
   std::vector<std::pair<std::string, std::string>> metadata;  // file order
-  std::vector<std::string> notes;  // free text before or after the table
+  std::vector<std::string> notes;                             // free text before or after the table
   Facts facts;
   SignalKind signal = SignalKind::ph;
   Column volume_column;
@@ -89,16 +93,16 @@ struct Run {
 // available (mV otherwise), spikes flagged, noise estimated.
 struct Curve {
   SignalKind signal = SignalKind::ph;
-  std::vector<double> volume_mL;     // strictly ascending [mL]
-  std::vector<double> value;         // [pH] or [mV]
-  std::vector<std::uint32_t> line;   // source line of each point (first of merged ones)
-  std::vector<std::uint8_t> spike;   // 1 where a reading is an isolated spike
-  double noise_sd = 0.0;             // estimated reading noise, same unit as value
-  double resolution = 0.0;           // reading resolution, same unit as value
-  double temperature_C = 25.0;       // [°C] mean temperature of the run
-  bool temperature_known = false;    // false: 25 °C assumed
-  int direction = +1;                // +1 when value rises with volume, -1 when it falls
-  bool converted_from_mv = false;    // true when value is pH computed from mV
+  std::vector<double> volume_mL;    // strictly ascending [mL]
+  std::vector<double> value;        // [pH] or [mV]
+  std::vector<std::uint32_t> line;  // source line of each point (first of merged ones)
+  std::vector<std::uint8_t> spike;  // 1 where a reading is an isolated spike
+  double noise_sd = 0.0;            // estimated reading noise, same unit as value
+  double resolution = 0.0;          // reading resolution, same unit as value
+  double temperature_C = 25.0;      // [°C] mean temperature of the run
+  bool temperature_known = false;   // false: 25 °C assumed
+  int direction = +1;               // +1 when value rises with volume, -1 when it falls
+  bool converted_from_mv = false;   // true when value is pH computed from mV
   std::vector<Diagnostic> warnings;
 };
 
