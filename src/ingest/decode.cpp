@@ -3,6 +3,7 @@
 #include "ingest/decode.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cerrno>
 #include <cstring>
 #include <stdexcept>
@@ -127,6 +128,21 @@ void DecodingSource::emit_codepoint(std::uint32_t cp) {
   }
 }
 
+namespace {
+
+// Windows-1252 in 0x80-0x9F, where Latin-1 has C1 control codes no export means (the code page's table,
+// from memory: the euro sign, typographic quotes and dashes, and a few letters); its 5 unassigned bytes
+// stay as they are.
+std::uint32_t windows_1252(unsigned char c) {
+  static constexpr std::array<std::uint16_t, 32> kTable = {
+      0x20AC, 0x0081, 0x201A, 0x0192, 0x201E, 0x2026, 0x2020, 0x2021, 0x02C6, 0x2030, 0x0160,
+      0x2039, 0x0152, 0x008D, 0x017D, 0x008F, 0x0090, 0x2018, 0x2019, 0x201C, 0x201D, 0x2022,
+      0x2013, 0x2014, 0x02DC, 0x2122, 0x0161, 0x203A, 0x0153, 0x009D, 0x017E, 0x0178};
+  return kTable[static_cast<std::size_t>(c - 0x80)];
+}
+
+}  // namespace
+
 void DecodingSource::decode_utf8(std::string_view in, bool last) {
   std::size_t i = 0;
   const std::size_t n = in.size();
@@ -179,8 +195,8 @@ void DecodingSource::decode_utf8(std::string_view in, bool last) {
       emit_codepoint(cp);
       i += len;
     } else {
-      m_latin1_seen = true;  // not UTF-8: read this byte as Latin-1
-      emit_codepoint(c);
+      m_latin1_seen = true;  // not UTF-8: read this byte as Latin-1, or as Windows-1252 in 0x80-0x9F
+      emit_codepoint(c >= 0x80 && c <= 0x9F ? windows_1252(c) : c);
       ++i;
     }
   }

@@ -426,3 +426,21 @@ TEST_CASE("a temperature column in degrees Fahrenheit is converted to Celsius", 
   CHECK(r.temperature_C[0] == veq::test::close(37.0, 1e-12));
   CHECK(r.temperature_C[1] == veq::test::close(25.0, 1e-12));
 }
+
+TEST_CASE("Windows-1252 dashes and quotes in an 8-bit export become their characters", "[ingest][dialect]") {
+  // 0x96 is the en dash and 0x93/0x94 the curly double quotes in Windows-1252 (the code page's table,
+  // from memory); Latin-1's 0xB0 is the degree sign.
+  const Run r = parse_run(
+      "Sample: TC\x96"
+      "111\nNote: \x93rinse\x94\nVolume (mL);pH;T (\xB0"
+      "C)\n0.00;3.12;25\n12.50;4.75;25\n"
+      "25.00;8.71;25\n",
+      "w.csv");
+  check_three(r);
+  CHECK(r.facts.sample_id ==
+        "TC\xE2\x80\x93"
+        "111");
+  bool quoted = false;
+  for (const auto& [k, v] : r.metadata) quoted = quoted || v == "\xE2\x80\x9Crinse\xE2\x80\x9D";
+  CHECK(quoted);
+}
