@@ -194,9 +194,9 @@ bool is_units_row(const std::vector<std::string>& cells) {
     std::string_view t = detail::trim(c);
     if (t.empty()) continue;
     if ((t.front() == '(' && t.back() == ')') || (t.front() == '[' && t.back() == ']')) {
-      t = t.substr(1, t.size() - 2);
+      t = detail::trim(t.substr(1, t.size() - 2));
     }
-    if (t == "-" || t == "--") continue;  // "no unit" (pH), as exports write it
+    if (t.empty() || t == "-" || t == "--") continue;  // "no unit" (pH), as exports write it: [-], [ ], ()
     if (!detail::find_unit(t)) return false;
     any = true;
   }
@@ -865,7 +865,10 @@ Run Reader::read(std::unique_ptr<detail::RawSource> raw) {
             for (std::size_t k = 0; k < names.size(); ++k) {
               std::string u = k < cells.size() ? std::string(detail::trim(cells[k])) : std::string();
               if (!u.empty() && u.front() != '(' && u.front() != '[') u = "(" + u + ")";
-              if (u == "(-)" || u == "[-]" || u == "(--)" || u == "[--]") u.clear();  // no unit
+              if (u.size() >= 2) {
+                const std::string_view inner = detail::trim(std::string_view(u).substr(1, u.size() - 2));
+                if (inner.empty() || inner == "-" || inner == "--") u.clear();  // no unit: [-], [ ], ()
+              }
               if (!u.empty()) names[k] += " " + u;
             }
             cells = names;

@@ -323,6 +323,16 @@ TEST_CASE("a two-line header with (-) as the unit of pH", "[ingest][columns]") {
   const Run r = parse_run("Volume;pH\n(mL);(-)\n0.00;3.12\n12.50;4.75\n25.00;8.71\n", "u.csv");
   check_three(r);
   CHECK(r.signal == SignalKind::ph);
+  // An empty bracket says "no unit" as well.
+  for (const char* none : {"[ ]", "[]", "()"}) {
+    CAPTURE(none);
+    const Run e = parse_run(std::string("Volume,pH,Temperature\n[mL],") + none +
+                                ",[\xC2\xB0"
+                                "C]\n0.00,3.12,25\n12.50,4.75,25\n25.00,8.71,25\n",
+                            "e.csv");
+    check_three(e);
+    CHECK(e.dialect.header_line == 1);
+  }
 }
 
 TEST_CASE("German metadata keys of lab exports are read", "[ingest][metadata]") {
