@@ -297,6 +297,9 @@ std::string section_indicators(const Analysis& a) {
   auto swatch = [](const indicators::Colour& c) {
     return fmt::format("<span class=\"swatch\" style=\"background:{}\"></span>{}", esc(c.srgb_hex), esc(c.name));
   };
+  // The colours in the order the titration shows them: acid to base colour as the pH rises (a base
+  // titrant), base to acid colour as it falls (an acid titrant).
+  const bool pH_rises = a.curve.signal == SignalKind::ph ? a.curve.direction >= 0 : a.curve.direction < 0;
   for (const auto& e : a.indicators.endpoints) {
     if (e.candidates.empty()) continue;
     s += fmt::format("<h3>Endpoint {} at {:.3f} mL{}</h3>\n",
@@ -313,8 +316,8 @@ std::string section_indicators(const Analysis& a) {
           esc(ind.name),
           ind.low_pH,
           ind.high_pH,
-          swatch(ind.acid_colour),
-          swatch(ind.base_colour),
+          swatch(pH_rises ? ind.acid_colour : ind.base_colour),
+          swatch(pH_rises ? ind.base_colour : ind.acid_colour),
           c.seen_mL ? fmt::format("{:.3f} mL (pH {:.1f})", *c.seen_mL, c.transition.seen_pH) : std::string("&#8212;"),
           c.error_percent ? fmt::format("{:+.2f} %", *c.error_percent) : std::string("&#8212;"),
           c.span_mL ? fmt::format("{:.3f} mL ({:.1f} drops)", *c.span_mL, c.span_drops.value_or(0.0))

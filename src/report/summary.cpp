@@ -103,7 +103,9 @@ std::string index_html_begin(const IndexInfo& info) {
   s += "<p>Files: <a href=\"summary.csv\">summary.csv</a> &#183; <a href=\"summary.json\">summary.json</a> &#183; "
        "<a href=\"errors.txt\">errors.txt</a></p>\n";
   s += "<table>\n<thead><tr><th>#</th><th>Sample</th><th>File</th><th>Status</th><th>Endpoints</th>"
-       "<th>Result (mL &#177; u)</th><th>Flags or reason</th><th>Curve</th></tr></thead>\n<tbody>\n";
+       "<th>" +
+       std::string(info.method.empty() ? "Endpoint volumes (mL &#177; u)" : "Result (with its unit)") +
+       "</th><th>Flags or reason</th><th>Curve</th></tr></thead>\n<tbody>\n";
   return s;
 }
 
@@ -129,14 +131,25 @@ std::string index_html_row(const SummaryRow& r, std::size_t number) {
 std::string index_html_end(const std::vector<ReplicateRow>& replicates) {
   std::string out = "</tbody>\n</table>\n";
   if (!replicates.empty()) {
-    out += "<h2>Replicates</h2>\n<table class=\"replicates\">\n<thead><tr><th>Group</th><th>Result</th><th>n</th>"
-           "<th>Mean</th><th>SD</th><th>RSD</th><th>95 % interval</th><th>Suspect outlier (kept)</th><th>RSD limit</th>"
-           "</tr></thead>\n<tbody>\n";
+    out +=
+        "<h2>Replicates</h2>\n<table class=\"replicates\">\n<thead><tr><th>Group</th><th>Result</th><th>n</th>"
+        "<th>Mean</th><th>SD</th><th>RSD</th><th>95 % interval</th><th>Suspect outlier (kept)</th><th>RSD limit</th>"
+        "</tr></thead>\n<tbody>\n";
     for (const auto& r : replicates) {
-      out += fmt::format("<tr><td>{}</td><td>{}</td><td>{}</td><td>{:.6g} {}</td><td>{:.3g}</td><td>{:.2f} %</td>"
-                         "<td>{:.6g} – {:.6g}</td><td>{}</td><td>{}</td></tr>\n",
-                         esc(r.group), esc(r.result), r.n, r.mean, esc(r.unit), r.sd, r.rsd_percent, r.ci95_low,
-                         r.ci95_high, esc(r.outlier), esc(r.acceptance));
+      out += fmt::format(
+          "<tr><td>{}</td><td>{}</td><td>{}</td><td>{:.6g} {}</td><td>{:.3g}</td><td>{:.2f} %</td>"
+          "<td>{:.6g} – {:.6g}</td><td>{}</td><td>{}</td></tr>\n",
+          esc(r.group),
+          esc(r.result),
+          r.n,
+          r.mean,
+          esc(r.unit),
+          r.sd,
+          r.rsd_percent,
+          r.ci95_low,
+          r.ci95_high,
+          esc(r.outlier),
+          esc(r.acceptance));
     }
     out += "</tbody>\n</table>\n";
   }
