@@ -243,7 +243,9 @@ class Reader {
   std::size_t m_vol = 0, m_sig = 1;
   std::optional<std::size_t> m_temp, m_time;
   double m_vol_factor = 1.0, m_sig_factor = 1.0;
-  bool m_vol_unit_assumed = false;  // mL taken for a volume column that states no unit
+  bool m_vol_unit_assumed = false;       // mL taken for a volume column that states no unit
+  std::size_t m_header_repeated_at = 0;  // the line of the last header repeated inside the table
+  bool m_after_repeated_header = false;  // the next reading follows a repeated header
   double m_temp_factor = 1.0, m_temp_offset = 0.0, m_time_factor = 1.0;
   std::vector<Field> m_fields;
   std::vector<std::string> m_header;  // header cells, to recognise a header repeated inside the table
@@ -443,6 +445,8 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
     if (same) {
       if (++m_repeated_headers == 1)
         warn("repeated_header", "the header is repeated inside the table; skipped", line_no);
+      m_header_repeated_at = line_no;
+      m_after_repeated_header = true;
       return;
     }
   }
@@ -522,6 +526,24 @@ void Reader::take_row(std::string_view line, std::size_t line_no) {
          fv.column,
          fmt::format("negative volume {} mL; expected a volume of 0 or more", fv.text),
          "volumes are the titrant added since the start of the run");
+  }
+  // Back to the start volume after a repeated header, or (rows in order) to the first volume after five
+  // readings or more: a second run in the same file, which no sorting can merge with the first.
+  const bool after_header = m_after_repeated_header;
+  m_after_repeated_header = false;
+  if (!m_run.volume_mL.empty() && v < m_run.volume_mL.back() &&
+      ((after_header && v <= m_run.volume_mL.front()) ||
+       (!m_opt.sort_by_volume && m_run.volume_mL.size() >= 5 && v <= m_run.volume_mL.front()))) {
+    fail(line_no,
+         fv.column,
+         fmt::format("a second run starts here: the volume returns to {:g} mL after {:g} mL on line {}{}; veq "
+                     "reads one run per file",
+                     v,
+                     m_run.volume_mL.back(),
+                     m_run.line.back(),
+                     after_header ? fmt::format(", below the header repeated on line {}", m_header_repeated_at)
+                                  : std::string()),
+         "split the file into one file per run");
   }
   if (!m_opt.sort_by_volume && !m_run.volume_mL.empty() && v < m_run.volume_mL.back()) {
     fail(line_no,

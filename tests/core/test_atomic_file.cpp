@@ -1,7 +1,8 @@
 // SPDX-License-Identifier: MIT
 // Atomic output: all or nothing, never a silent overwrite.
-#include <catch2/catch.hpp>
+#include <unistd.h>
 
+#include <catch2/catch.hpp>
 #include <filesystem>
 #include <fstream>
 
@@ -16,7 +17,8 @@ std::string slurp(const fs::path& p) {
   return {std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>()};
 }
 fs::path fresh_dir() {
-  const fs::path d = fs::temp_directory_path() / "veq_atomic_tests";
+  // One folder per test process: CTest runs the cases of this file in parallel.
+  const fs::path d = fs::temp_directory_path() / ("veq_atomic_tests_" + std::to_string(::getpid()));
   fs::remove_all(d);
   fs::create_directories(d);
   return d;

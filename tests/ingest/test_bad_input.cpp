@@ -1,7 +1,6 @@
 // SPDX-License-Identifier: MIT
 // Every bad input gets an InputError naming file, line (and column) and what was expected.
 #include <catch2/catch.hpp>
-
 #include <filesystem>
 #include <fstream>
 #include <string>
@@ -131,4 +130,24 @@ TEST_CASE("a header without a volume or a signal column", "[ingest][bad]") {
 
 TEST_CASE("a short row inside the table", "[ingest][bad]") {
   expect_error("Volume (mL);pH\n0.00;3.12\n12.50\n25.00;8.71\n", {3, 1, "inside the table"});
+}
+
+TEST_CASE("two runs in one file: an error at the second run's first reading, with or without --sort", "[ingest][bad]") {
+  // A titrator export appended to another: the header again, then the volume back at the start. Sorting
+  // would interleave two samples into one curve (common practice: one run per file, no source).
+  const std::string text =
+      "Volume (mL),pH\n0.0,3.1\n5.0,4.2\n10.0,4.8\n15.0,5.5\n20.0,9.1\n25.0,11.2\n"
+      "Volume (mL),pH\n0.0,3.0\n5.0,4.1\n";
+  for (const bool sort : {false, true}) {
+    CAPTURE(sort);
+    veq::ingest::IngestOptions o;
+    o.sort_by_volume = sort;
+    try {
+      (void)veq::ingest::parse_run(text, "two.csv", o);
+      FAIL("no error");
+    } catch (const veq::InputError& e) {
+      CHECK(e.where().line == 9);
+      CHECK(std::string(e.what()).find("second run") != std::string::npos);
+    }
+  }
 }
