@@ -623,10 +623,15 @@ void Reader::finish() {
     warn("empty_cell", fmt::format("{} readings skipped in all for empty cells", m_empty_cells));
   }
   if (m_run.volume_mL.empty()) {
+    const char sep = m_cand.sep == detail::kWhitespace ? ' ' : m_cand.sep;
+    const std::string example = m_cand.dec == ',' ? fmt::format("12,50{}7,02", sep) : fmt::format("12.50{}7.02", sep);
     fail(m_run.dialect.first_data_line,
          0,
-         "no readings: the table has no row with both a volume and a signal",
-         "expected rows like '12.50;7.02' (volume and pH)");
+         fmt::format("no readings: the table has no row with both a volume and a signal (columns '{}' and '{}')",
+                     detail::excerpt(m_run.volume_column.header),
+                     detail::excerpt(m_run.signal_column.header)),
+         "expected rows like '" + example +
+             "' (volume and pH); if another column holds the signal, pass --columns volume=N,signal=M");
   }
   if (m_opt.sort_by_volume) {
     std::vector<std::size_t> order(m_run.volume_mL.size());
