@@ -790,6 +790,10 @@ footer { margin-top: 2rem; border-top: 1px solid var(--line); color: var(--muted
   .nav { display: none; }
   a { color: inherit; text-decoration: none; }
   figure, table, .caution { break-inside: avoid; page-break-inside: avoid; }
+  section { overflow: visible; }
+  table { font-size: 7.5pt; max-width: 100%; }
+  th, td { padding: 0.08rem 0.2rem; }
+  td.num, table.kv th { white-space: normal; }
   h2 { break-after: avoid; page-break-after: avoid; }
   svg.plot { width: 100%; }
 }
