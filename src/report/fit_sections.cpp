@@ -171,8 +171,10 @@ std::string endpoint_fit_line(const Analysis& a, int endpoint_index) {
   const fit::FittedEquivalence* fe = matched(a, endpoint_index);
   if (fe == nullptr) return {};
   const int d = std::clamp(parameter_decimals(fe->uncertainty_mL, fe->volume_mL), 2, 6);
-  return fmt::format(
-      "      Fit: {:.{}f} ± {:.{}f} mL ({})\n", fe->volume_mL, d, *fe->uncertainty_mL, d, a.fit.best->model);
+  // Below the last decimal shown: said so, not printed as a zero uncertainty.
+  const std::string u = *fe->uncertainty_mL < 0.5 * std::pow(10.0, -d) ? fmt::format("< {:.{}f}", std::pow(10.0, -d), d)
+                                                                       : fmt::format("{:.{}f}", *fe->uncertainty_mL, d);
+  return fmt::format("      Fit: {:.{}f} ± {} mL ({})\n", fe->volume_mL, d, u, a.fit.best->model);
 }
 
 std::string fit_block(const Analysis& a) {
