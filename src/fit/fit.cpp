@@ -1528,9 +1528,14 @@ FitResult fit_titration(const Curve& curve,
   // reading), at a half or a third of the concentration. And one with a titrated step out of the readings'
   // reach (step_out_of_reach): the simpler model without that step's pKa says the same.
   // The best by that rule, leaving out one index (none: size()); size() when there is none.
-  auto fine = [&](const Attempt& q) {
-    return !at_bound(q) && !merged_steps(q, p.base_titrant) && !step_out_of_reach(q, p.base_titrant);
+  // Why the rule passes a candidate over ("" for none), as ModelScore::set_aside reports it.
+  auto set_aside_reason = [&](const Attempt& q) -> std::string {
+    if (at_bound(q)) return "parameter_at_bound";
+    if (merged_steps(q, p.base_titrant)) return "steps_merged";
+    if (step_out_of_reach(q, p.base_titrant)) return "step_out_of_reach";
+    return {};
   };
+  auto fine = [&](const Attempt& q) { return set_aside_reason(q).empty(); };
   auto best_by_rule = [&](std::size_t except) {
     std::size_t best = best_per_shape.size();
     for (const bool allow_bound : {false, true}) {
@@ -1598,8 +1603,8 @@ FitResult fit_titration(const Curve& curve,
         if (d.index >= 0) d.initial = std::clamp(q.layout.value(d, q.u.data()), d.lower, d.upper);
       }
       // The runner-up's score can only fall with more iterations, so its refit stops early only once it has
-      // settled behind the winner: after 3 iterations, more than 10 units behind, and its last step's fall
-      // in score, five times over, short of the rest of the gap (SettleCallback). It otherwise gets the
+      // settled behind the winner: from its third iteration, more than 10 units behind, its falls in score
+      // shrinking, and their geometric rest short of the gap (SettleCallback). It otherwise gets the
       // winner's iteration limit, since it may take the lead. (Stopping every runner-up 10 units behind
       // after 3 iterations let a weak acid restarted far from its all-readings solution, its trust region
       // still shrinking, lose to an over-parameterised model by 200 units.)
@@ -1707,10 +1712,7 @@ FitResult fit_titration(const Curve& curve,
   for (ModelScore& c : result.candidates) {
     for (const Attempt& q : best_per_shape) {
       if (!q.ok || q.layout.shape.name != c.model) continue;
-      c.set_aside = at_bound(q)                            ? "parameter_at_bound"
-                    : merged_steps(q, p.base_titrant)      ? "steps_merged"
-                    : step_out_of_reach(q, p.base_titrant) ? "step_out_of_reach"
-                                                           : "";
+      c.set_aside = set_aside_reason(q);
     }
   }
   std::stable_partition(result.candidates.begin(), result.candidates.end(), [&](const ModelScore& c) {
