@@ -221,10 +221,12 @@ std::string crosscheck_text(const indicators::CrosscheckResult& r) {
     if (c.span_drops) out += fmt::format("; the change spans {:.3f} mL ({:.1f} drops)", *c.span_mL, *c.span_drops);
     out += "\n";
   }
-  out += fmt::format("  Predicted for the manual sample: {:.2f} ± {:.2f} mL ({})",
-                     r.predicted_mL,
-                     r.prediction_uncertainty_mL,
-                     r.curve_method == "model" ? "on the fitted model" : "between the readings");
+  // An uncertainty below the last decimal shown is said so, not printed as zero.
+  out += fmt::format(
+      "  Predicted for the manual sample: {:.2f} ± {} mL ({})",
+      r.predicted_mL,
+      r.prediction_uncertainty_mL < 0.005 ? std::string("< 0.01") : fmt::format("{:.2f}", r.prediction_uncertainty_mL),
+      r.curve_method == "model" ? "on the fitted model" : "between the readings");
   if (r.scale != 1.0) out += fmt::format(" (run x {:.4g})", r.scale);
   out += "\n";
   const bool class_a = std::fabs(r.burette_tolerance_mL - indicators::kClassA50mLBuretteTolerance_mL) < 1e-12;
